@@ -1,0 +1,54 @@
+"""Poleprint: poles with confidence intervals from measured responses.
+
+Import name ``identify``; command ``poleprint``.  The public API, one line each
+(heavy modules load on first use, so ``import identify`` stays fast):
+
+Records and conditioning
+    read_record          read a logger/oscilloscope CSV into a :class:`Record`
+    Record, Channel      uniformly sampled, named, traceable channels
+
+Poles
+    Pole, PoleIntervals, Interval   a pole, its intervals and derived quantities
+    discrete_to_continuous, continuous_to_discrete, hz_to_rad_per_s, rad_per_s_to_hz
+
+Errors and warnings
+    PoleprintError (base), ParameterValueError, ParameterTypeError, RecordError,
+    IdentificationError, HistoryError; PoleprintWarning, RecordWarning, EstimateWarning
+"""
+from __future__ import annotations
+
+import importlib
+
+from ._errors import (EstimateWarning, HistoryError, IdentificationError, ParameterTypeError,
+                      ParameterValueError, PoleprintError, PoleprintWarning, RecordError,
+                      RecordWarning)
+from ._version import __version__
+from .poles import (Interval, Pole, PoleIntervals, continuous_to_discrete,
+                    discrete_to_continuous, hz_to_rad_per_s, rad_per_s_to_hz)
+from .records import Channel, Record
+
+#: public name -> module that defines it (imported on first access)
+_LAZY = {
+    "read_record": "identify._csv",
+}
+
+__all__ = [
+    "__version__", "Record", "Channel", "Pole", "PoleIntervals", "Interval",
+    "discrete_to_continuous", "continuous_to_discrete", "hz_to_rad_per_s", "rad_per_s_to_hz",
+    "PoleprintError", "ParameterValueError", "ParameterTypeError", "RecordError",
+    "IdentificationError", "HistoryError", "PoleprintWarning", "RecordWarning", "EstimateWarning",
+    *_LAZY,
+]
+
+
+def __getattr__(name):
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'identify' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_LAZY))

@@ -1,0 +1,68 @@
+"""The ``poleprint`` command line: parse arguments, call the public API, print.
+
+Exit status: 0 every file gave a result; 2 bad usage, or no file gave a result
+(unreadable or unusable input); 3 some files gave a result and some did not.
+Set ``POLEPRINT_DEBUG=1`` to see tracebacks of unexpected failures.
+"""
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from .._version import __version__
+from ._common import EXIT_OK, EXIT_PARTIAL, EXIT_USAGE, CliUsageError, fail_line
+
+__all__ = ["main", "build_parser", "EXIT_OK", "EXIT_USAGE", "EXIT_PARTIAL"]
+
+#: (subcommand, module under identify.cli, one-line help); each module defines
+#: ``register(subparsers, name, help)`` and sets ``func`` on its parser.
+SUBCOMMANDS = [
+    ("inspect", "_inspect", "show what a CSV record holds: samples, rate, channels, time-base findings"),
+]
+
+DESCRIPTION = """\
+Poles with confidence intervals from measured responses.
+
+Reads logger CSV files, finds the response, estimates natural frequencies, damping
+ratios, time constants, dead time and gain with intervals, checks the model against the
+record and writes tables, JSON and reports.  Results are estimates, not clearances:
+defer to the site's procedures, local codes and licensed engineers for decisions.
+"""
+
+EPILOG = """\
+exit status: 0 every file gave a result; 2 bad usage or no file gave a result;
+3 some files gave a result and some did not.
+"""
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="poleprint", description=DESCRIPTION, epilog=EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version=f"poleprint {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for name, module, help_text in SUBCOMMANDS:
+        importlib.import_module(f".{module}", __name__).register(sub, name, help_text)
+    return parser
+
+
+def main(argv=None) -> int:
+    """Run the command line; returns the exit status (also used by the console script)."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "command", None):
+        parser.print_help()
+        return EXIT_USAGE
+    try:
+        return int(args.func(args))
+    except CliUsageError as exc:
+        fail_line(str(exc))
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        fail_line("interrupted")
+        return 130
+
+
+def _entry() -> None:  # pragma: no cover - console script shim
+    sys.exit(main())
