@@ -19,6 +19,13 @@ __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_USAGE", "EXIT_PARTIAL"]
 #: ``register(subparsers, name, help)`` and sets ``func`` on its parser.
 SUBCOMMANDS = [
     ("inspect", "_inspect", "show what a CSV record holds: samples, rate, channels, time-base findings"),
+    ("decay", "_decay", "natural frequencies and damping ratios, with intervals, from free-decay records"),
+    ("step", "_step", "process model, step figures and starting PI/PID gains from step tests"),
+    ("arx", "_arx", "plant poles, zeros and DC gain with intervals from input/output records (ARX)"),
+    ("check", "_check", "check new records against a saved result: how each pole moved, with intervals"),
+    ("report", "_report", "analyse records and write one self-contained HTML report with plots"),
+    ("demo", "_demo", "run every job on the bundled records and write the demonstration report"),
+    ("history", "_history", "store each test of a rig and follow its modes' damping over time"),
 ]
 
 DESCRIPTION = """\

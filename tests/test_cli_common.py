@@ -1,0 +1,77 @@
+"""Command-line plumbing: one JSON line per file, error lines, exit status, lazy imports."""
+import json
+import subprocess
+import sys
+
+import pytest
+
+from identify import IdentificationError
+from identify.cli import EXIT_OK, EXIT_PARTIAL, EXIT_USAGE, main
+from identify.cli._common import run_per_file, table
+
+
+class Fake:
+    warnings = ("few cycles: only 2 cycles",)
+
+    def __init__(self, name):
+        self.name = name
+
+    def to_dict(self):
+        return {"source": self.name, "value": 1.5, "nan": float("nan")}
+
+
+def analyse(path):
+    if "bad" in path:
+        raise IdentificationError("no oscillation found")
+    return Fake(path)
+
+
+def test_json_lines_in_input_order_with_error_lines(capsys):
+    status = run_per_file(["a.csv", "bad.csv", "c.csv"], analyse, str, json_output=True)
+    out, err = capsys.readouterr()
+    lines = [json.loads(x) for x in out.splitlines()]
+    assert [x["source"] for x in lines] == ["a.csv", "bad.csv", "c.csv"]
+    assert lines[1] == {"source": "bad.csv", "error": "no oscillation found"}
+    assert lines[0]["nan"] is None  # JSON has no NaN
+    assert err.strip() == "poleprint: error: bad.csv: no oscillation found"
+    assert status == EXIT_PARTIAL
+
+
+def test_exit_status_all_ok_and_all_failed(capsys):
+    assert run_per_file(["a.csv"], analyse, lambda r: "text", json_output=False) == EXIT_OK
+    out, err = capsys.readouterr()
+    assert out.strip() == "text" and "warning: a.csv: few cycles" in err
+    assert run_per_file(["bad.csv"], analyse, str, json_output=False) == EXIT_USAGE
+
+
+def test_unexpected_exception_is_one_line(capsys):
+    def boom(path):
+        raise ZeroDivisionError("x")
+
+    assert run_per_file(["a.csv"], boom, str, json_output=False) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "internal error" in err and "Traceback" not in err
+
+
+def test_version_and_help(capsys):
+    with pytest.raises(SystemExit) as info:
+        main(["--version"])
+    assert info.value.code == 0
+    assert capsys.readouterr().out.startswith("poleprint ")
+    assert main([]) == EXIT_USAGE
+
+
+def test_table_pads_columns():
+    text = table(["mode", "fn [Hz]"], [[1, "12.5"], [2, "140.25"]])
+    assert text.splitlines()[0] == "mode  fn [Hz]"
+    assert text.splitlines()[1] == "----  -------"
+
+
+def test_command_line_start_imports_no_heavy_module():
+    # The CLI must start fast: building the parser loads no plotting, fitting or statistics
+    # package (lazy imports; STYLE.md §11).
+    code = ("import sys; from identify.cli import build_parser; build_parser(); "
+            "heavy = [m for m in ('matplotlib', 'lmfit', 'statsmodels', 'pandas', 'scipy') if m in sys.modules]; "
+            "print(','.join(heavy))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip() == ""
