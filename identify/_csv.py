@@ -25,7 +25,6 @@ from .records import Channel, Record
 
 __all__ = ["read_record"]
 
-_SEP_WORDS = {",": "comma", ";": "semicolon", "\t": "tab", WHITESPACE: "blanks"}
 _NO_RATE_HINT = ("give the sample rate with --sample-rate HZ (sample_rate_hz= in Python), "
                  "add a 'sample rate: HZ' preamble line, or add a time column")
 
@@ -258,6 +257,8 @@ def _column_names(dialect: Dialect, notes: list):
     header = dialect.header or (None,) * dialect.ncols
     for j, cell in enumerate(header):
         name, unit = split_name_unit(cell) if cell else ("", "")
+        if dialect.units is not None and not unit:
+            unit = dialect.units[j].strip().strip("[](){}").strip()
         names.append(name or f"column_{j + 1}")
         units.append(unit)
     seen = {}

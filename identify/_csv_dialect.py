@@ -11,14 +11,17 @@ Rules (applied in this order):
 * Comment lines start with ``#`` (after optional blanks) and are skipped; blank lines
   are skipped.
 * Separator and decimal mark: each candidate (``,`` ``.``), (``;`` ``,``), (``;`` ``.``),
-  (tab ``.``), (tab ``,``), (blanks ``.``), (blanks ``,``), (``,`` ``,``, quoted cells) is
-  tried; the first data row
-  is the first line whose fields are all numbers (ISO-8601 or hh:mm:ss stamps allowed,
-  empty / NaN cells tolerated) and when one of the next 3 lines is
-  such a row with the same field count too (so a lone number in a preamble is skipped).  The candidate whose header field count matches its data,
-  then the one with more columns, then the earlier in the list, wins.
-* Header: the line just before the first data row, if it has as many fields as the
-  data and none of them is a number.  Otherwise the columns are named ``column_1``...
+  (tab ``.``), (tab ``,``), (blanks ``.``), (blanks ``,``), (``,`` ``,`` in quoted
+  cells) is tried.  Its first data row is the first line whose fields are all numbers
+  (ISO-8601 or hh:mm:ss stamps allowed, empty / NaN cells tolerated) with one of the
+  next 3 lines such a row of the same field count too (so a lone number in a preamble
+  is skipped).  The candidate with a matching header (or data from the first line),
+  then more columns, then earlier in the list, wins.  A decimal comma is kept only if
+  a comma is seen in the data.
+* Header: the line just before the first data row (or a ``#`` comment line right
+  before it, for two or more columns), if it has as many fields as the data and none
+  of them is a number.  Otherwise the columns are named ``column_1``...  A header row
+  made only of units (``s,V``) under a row of names is read as the units row.
 * Preamble: every earlier line of the form ``key: value``, ``key = value`` or
   ``key<sep>value`` (also inside ``#`` comments); keys lower-cased and stripped.
 """
@@ -63,6 +66,7 @@ class Dialect:
     metadata: dict = field(default_factory=dict)
     text_stamps: tuple = ()
     decimals: tuple = ()
+    units: tuple | None = None
     notes: tuple = ()
 
 
@@ -251,6 +255,17 @@ def sniff(raw: bytes, source: str) -> Dialect:
         raise RecordError(f"no rows of numbers found in the first {len(lines)} lines "
                           f"(line {content[0] + 1} reads {first[:60]!r})", source)
     _, sep, decimal, k, ncols, header, header_index, trailing, fields = best
+    units = None
+    if header is not None and _all_units(header):
+        # two header rows: names, then units ("time,x" over "s,V")
+        above = [i for i in content if i < header_index]
+        if above:
+            names = _split_header(lines[above[-1]], sep, ncols)
+            if len(names) == ncols + 1 and names[-1] == "":
+                names = names[:-1]
+            if len(names) == ncols and not any(_is_number(c, decimal) for c in names if c) \
+                    and not _all_units(names):
+                header, units, header_index = tuple(names), header, above[-1]
     data_index = content[k]
     if decimal == ",":
         sample = [f for m in range(k, min(k + 50, len(content))) for f in fields(m)]
@@ -271,8 +286,16 @@ def sniff(raw: bytes, source: str) -> Dialect:
     return Dialect(sep=sep, decimal=decimal, encoding=encoding, ncols=ncols, header=header,
                    header_line=None if header_index is None else header_index + 1,
                    data_line=data_index + 1, data_offset=offset, trailing_sep=trailing,
-                   metadata=metadata, text_stamps=stamps, decimals=decimals,
+                   metadata=metadata, text_stamps=stamps, decimals=decimals, units=units,
                    notes=tuple(notes))
+
+
+def _all_units(cells) -> bool:
+    """True when every non-empty cell reads as a unit (``s``, ``V``, ``m/s^2``, ``[mm]``)."""
+    from ._csv_units import looks_like_unit
+
+    filled = [c for c in cells if c]
+    return bool(filled) and all(looks_like_unit(c) for c in filled)
 
 
 def _decimals(text: str, decimal: str, stamp: bool) -> int:

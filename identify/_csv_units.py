@@ -25,6 +25,7 @@ __all__ = [
     "clock_to_seconds",
     "stamps_to_seconds",
     "normalise_micro",
+    "looks_like_unit",
 ]
 
 #: Micro sign (U+00B5) and Greek small mu (U+03BC) are both written for "micro".
@@ -94,6 +95,16 @@ def split_name_unit(cell: str) -> tuple[str, str]:
     return text, ""
 
 
+def looks_like_unit(cell: str) -> bool:
+    """True when a header cell is only a unit: ``s``, ``ms``, ``V``, ``m/s^2``, ``[mm]``, ``%``."""
+    text = str(cell).strip().strip('"').strip()
+    if re.fullmatch(r"[\[\(\{][^\[\]\(\)\{\}]*[\]\)\}]", text):
+        return True
+    key = normalise_micro(text)
+    return key in _SUFFIX_UNITS or key in ("%", "-", "1") or bool(
+        re.fullmatch(r"[a-z%\u00b0]{1,4}(?:[/*\^\u00b7][a-z0-9%\u00b2\u00b3]{1,4})+", key))
+
+
 def time_unit_factor(unit: str) -> float | None:
     """Factor that turns a value in ``unit`` into seconds; None if not a time unit."""
     return _TIME_UNITS.get(normalise_micro(unit))
@@ -142,43 +153,60 @@ def sample_time_from_metadata(metadata: dict):
     sample rate (``sample rate: 1 kHz``, ``Sample rate (Hz),100``, ``fs = 250``) or a
     sample interval (``sample interval: 2 ms``, ``dt [s]: 0.001``).  Units may sit in
     the key (bracketed) or after the number; a rate without unit is in Hz, an interval
-    without unit in seconds.  Raises ``ValueError`` on a key it recognises with a value
-    that is not a positive number or carries an unknown unit.
+    without unit in seconds.  Raises ``ValueError`` when every key it recognises has a
+    value that is not a positive number or carries an unknown unit, or when a rate and
+    an interval disagree by more than 1 %.
     """
     rate = interval = None
+    problems = []
     for key, value in metadata.items():
-        name, key_unit = split_name_unit(key)
-        base = _name_key(name)
-        for suffix, unit in ((" hz", "hz"), (" s", "s"), (" ms", "ms")):
-            if base.endswith(suffix) and base[: -len(suffix)] in (_RATE_KEYS | _INTERVAL_KEYS):
-                base, key_unit = base[: -len(suffix)], unit
-        if base not in _RATE_KEYS and base not in _INTERVAL_KEYS:
+        try:
+            found = _metadata_entry(key, value)
+        except ValueError as exc:
+            problems.append(str(exc))
             continue
-        parsed = _parse_quantity(value)
-        if parsed is None:
-            raise ValueError(f"preamble line {key!r} has value {value!r}, not a number")
-        number, unit = parsed
-        unit = unit or key_unit
-        if base in _RATE_KEYS:
-            factor = _RATE_UNITS.get(normalise_micro(unit) if unit else "hz")
-            if unit in ("MS/s", "MSa/s", "Msps"):
-                factor = 1e6
-            if factor is None:
-                raise ValueError(f"preamble line {key!r}: unknown sample-rate unit {unit!r}")
-            if not (number > 0 and np.isfinite(number)):
-                raise ValueError(f"preamble line {key!r}: sample rate must be > 0, got {value!r}")
-            rate = rate or (1.0 / (number * factor), f"preamble {key!r} = {value!r}")
+        if found is None:
+            continue
+        kind, seconds, text = found
+        if kind == "rate":
+            rate = rate or (seconds, text)
         else:
-            factor = time_unit_factor(unit) if unit else 1.0
-            if factor is None:
-                raise ValueError(f"preamble line {key!r}: unknown time unit {unit!r}")
-            if not (number > 0 and np.isfinite(number)):
-                raise ValueError(f"preamble line {key!r}: sample interval must be > 0, got {value!r}")
-            interval = interval or (number * factor, f"preamble {key!r} = {value!r}")
+            interval = interval or (seconds, text)
+    if not rate and not interval and problems:
+        raise ValueError(problems[0])
     if rate and interval and abs(rate[0] - interval[0]) > 0.01 * interval[0]:
         raise ValueError(f"the preamble disagrees with itself: {rate[1]} gives a sample interval of "
                          f"{rate[0]:g} s, {interval[1]} gives {interval[0]:g} s")
     return rate or interval
+
+
+def _metadata_entry(key, value):
+    """``("rate"|"interval", seconds, text)`` for a sample-rate/interval line, else None."""
+    name, key_unit = split_name_unit(key)
+    base = _name_key(name)
+    for suffix, unit in ((" hz", "hz"), (" s", "s"), (" ms", "ms")):
+        if base.endswith(suffix) and base[: -len(suffix)] in (_RATE_KEYS | _INTERVAL_KEYS):
+            base, key_unit = base[: -len(suffix)], unit
+    if base not in _RATE_KEYS and base not in _INTERVAL_KEYS:
+        return None
+    parsed = _parse_quantity(value)
+    if parsed is None:
+        raise ValueError(f"preamble line {key!r} has value {value!r}, not a number")
+    number, unit = parsed
+    unit = unit or key_unit
+    text = f"preamble {key!r} = {value!r}"
+    if not (number > 0 and np.isfinite(number)):
+        raise ValueError(f"preamble line {key!r}: value must be > 0, got {value!r}")
+    if base in _RATE_KEYS:
+        factor = 1e6 if unit in ("MS/s", "MSa/s", "Msps") else \
+            _RATE_UNITS.get(normalise_micro(unit) if unit else "hz")
+        if factor is None:
+            raise ValueError(f"preamble line {key!r}: unknown sample-rate unit {unit!r}")
+        return "rate", 1.0 / (number * factor), text
+    factor = time_unit_factor(unit) if unit else 1.0
+    if factor is None:
+        raise ValueError(f"preamble line {key!r}: unknown time unit {unit!r}")
+    return "interval", number * factor, text
 
 
 # -- ISO-8601 ------------------------------------------------------------------------

@@ -14,7 +14,7 @@ from identify.arx import ArxResult, analyse_arx
 from identify.records import Record
 from identify.validation import fit_percent
 
-from _arx_synth import record_signals, relative_errors
+from _arx_synth import plant, record_signals, relative_errors
 
 TS = 1.0 / 15.0
 
@@ -91,7 +91,6 @@ def test_text_summary_has_units_intervals_and_caution(io_result):
 def test_output_only_autoregression():
     # ambient response: the mode driven by white noise, no input recorded
     rng = np.random.default_rng(7)
-    from _arx_synth import plant
     _, a, poles = plant([(1.0, 0.05)], [], TS)
     y = lfilter([1.0], a, rng.normal(size=20000))
     result = analyse_arx(Record.from_arrays(sample_time_s=TS, acc=y), output="acc", criterion="bic")
@@ -119,23 +118,44 @@ def test_decimation_factor_and_filter():
     assert np.std(df) < 0.01  # > 40 dB down
 
 
-def test_oversampled_record_is_decimated():
-    # 1 Hz mode sampled at 500 Hz (500 samples per period); binary input held 25 samples
+def test_hold_clock_of_the_input():
+    from identify.arx._decimate import hold_period, largest_divisor
+
+    u = np.repeat([1.0, -1.0, -1.0, 1.0, -1.0, 1.0], 25)
+    assert hold_period(np.concatenate([np.full(7, 1.0), u])) == (25, 7 % 25)
+    assert hold_period(np.random.default_rng(0).standard_normal(100)) == (1, 0)
+    assert largest_divisor(250, 24) == 10 and largest_divisor(250, 60, 5) == 50 and largest_divisor(7, 5) == 1
+
+
+def test_oversampled_record_with_a_held_input_is_subsampled_on_its_clock():
+    # 1 Hz mode and a real pole at -8 rad/s sampled at 500 Hz (500 samples per period);
+    # binary input held 25 samples: subsampling by 25 keeps the zero-order hold exact
     y, u, poles, _, _ = record_signals([(1.0, 0.05)], [-8.0], 0.002, 60000, noise=0.01, kind="output",
                                        seed=9, hold=25)
     result = analyse_arx(_io_record(y, u, ts=0.002), output="y", input="u", orders=(3, 3), refine="iv")
-    q = result.settings["decimation_factor"]
-    assert q >= 10
-    assert result.model.sample_time_s == pytest.approx(0.002 * q)
-    assert 10 <= 1.0 / (result.model.sample_time_s * 1.0) <= 60  # samples per period of the 1 Hz mode
-    (mode,) = [p for p in result.poles if not p.is_real]
-    assert mode.natural_frequency_hz == pytest.approx(1.0, rel=0.02)
-    assert mode.damping_ratio == pytest.approx(0.05, rel=0.10)
-    # the binary input switches faster than the kept band: said plainly
-    assert "above the kept band" in _one_line_with_key(result, "decimated input")
+    assert result.settings["decimation_factor"] == 25  # 20 samples per period of the mode
+    assert result.settings["decimation_method"] == "subsampled on the input's hold clock"
+    assert result.model.sample_time_s == pytest.approx(0.05)
+    assert result.model.delay_samples == 1
+    for fn_err, zeta_err in relative_errors(result.poles, poles):
+        assert fn_err < 0.02 and zeta_err < 0.10
+    assert result.warnings == ()
     off = analyse_arx(_io_record(y[:6000], u[:6000], ts=0.002), output="y", input="u", orders=(3, 3),
                       delay=1, decimate="off", refine="iv")
     assert "samples per period" in _one_line_with_key(off, "oversampled")
+
+
+def test_broadband_input_limits_decimation_and_a_forced_factor_warns():
+    # white input at 500 Hz: filtering it to a narrower band would break the relation
+    b, a, _ = plant([(1.0, 0.05)], [-8.0], 0.002)
+    rng = np.random.default_rng(11)
+    u = rng.standard_normal(20000)
+    y = lfilter(b, a, u) + rng.normal(0, 0.001, 20000)
+    auto = analyse_arx(_io_record(y, u, ts=0.002), output="y", input="u", orders=(3, 3), delay=1)
+    assert auto.settings["decimation_factor"] == 1
+    forced = analyse_arx(_io_record(y, u, ts=0.002), output="y", input="u", orders=(3, 3), decimate=10)
+    assert forced.settings["decimation_method"] == "anti-alias filter"
+    assert "above the kept band" in _one_line_with_key(forced, "decimated input")
 
 
 # -- warnings, one test each ----------------------------------------------------------
@@ -173,7 +193,7 @@ def test_warning_few_samples():
     y = lfilter([0, 1.0], [1.0, -0.5], u) + rng.normal(0, 0.05, 60)
     result = analyse_arx(_io_record(y, u, ts=0.1), output="y", input="u", orders=(3, 3), delay=1,
                          decimate="off", holdout=0.0)
-    assert "6 parameters" in _one_line_with_key(result, "few samples")
+    assert "7 parameters" in _one_line_with_key(result, "few samples")  # a1..a3, b1..b3 and the constant
 
 
 def test_warning_growing_pole():
@@ -283,3 +303,24 @@ def test_time_window():
                          start_s=20.0, end_s=120.0)
     assert result.response.time_s[0] == pytest.approx(20.0)
     assert result.response.time_s[-1] == pytest.approx(120.0, abs=TS)
+
+
+def test_demo_motor_stage_record():
+    # the bundled demo record (datasets/motor_prbs.csv, truth in datasets/truth.json, both
+    # invented): a real pole and a 14 Hz mode driven by a maximum-length binary sequence,
+    # sensor noise only, so the refinement is the right call
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1] / "datasets"
+    if not (root / "motor_prbs.csv").exists():
+        pytest.skip("demo datasets not present")
+    truth = json.loads((root / "truth.json").read_text())["files"]["motor_prbs.csv"]
+    result = analyse_arx(root / "motor_prbs.csv", output="speed", input="drive", orders=(3, 3),
+                         refine="iv")
+    assert result.model.delay_samples == truth["discrete_equivalent"]["delay_samples"]
+    for p in truth["poles"]:
+        est = min(result.poles, key=lambda q: abs(q.natural_frequency_hz - p["natural_frequency_hz"]))
+        assert est.natural_frequency_hz == pytest.approx(p["natural_frequency_hz"], rel=0.02)
+        assert est.damping_ratio == pytest.approx(p["damping_ratio"], rel=0.10)
+    assert result.model.dc_gain == pytest.approx(truth["dc_gain"], rel=0.02)
+    assert result.validation["fit_percent"] > 90

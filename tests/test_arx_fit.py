@@ -145,7 +145,7 @@ def test_more_parameters_than_samples():
 
 def test_nb_without_input_and_bad_orders():
     y = np.sin(np.arange(100.0) * 0.3) + np.cos(np.arange(100.0))
-    with pytest.raises(ParameterValueError, match="nb must be <= 0"):
+    with pytest.raises(ParameterValueError, match="without an input the model is an autoregression: nb must be 0; got 2"):
         fit_arx(y, None, 2, 2, 1)
     with pytest.raises(ParameterValueError, match="na must be >= 0; got -1"):
         fit_arx(y, None, -1, 0, 1)

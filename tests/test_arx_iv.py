@@ -82,8 +82,9 @@ def test_job_warns_of_output_noise_bias_and_the_refinement_clears_it(output_nois
 
 def test_auto_orders_with_refinement_use_the_simulation_error(output_noise):
     y, u, poles = output_noise
-    result = analyse_arx(_record(y, u), output="y", input="u", refine="iv", criterion="bic", delay=1)
-    assert (result.model.na, result.model.nb) == (3, 3)
+    result = analyse_arx(_record(y, u), output="y", input="u", refine="iv", criterion="bic")
+    assert (result.model.na, result.model.nb, result.model.delay_samples) == (3, 3, 1)
+    assert {r["delay_samples"] for r in result.order_search} >= {1}
     assert result.order_search[0]["estimator"] == "instrumental variables"
     for fn_err, zeta_err in relative_errors(result.poles, poles):
         assert fn_err < 0.02 and zeta_err < 0.10

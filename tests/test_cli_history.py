@@ -269,11 +269,14 @@ def test_end_to_end_with_the_decay_job(tmp_path, capsys):
                                                     for i in range(4)]
     for t, z in zip(tests, zetas):
         assert t["job"] == "decay" and t["settings"]["column"] == "accel"
-        (p,) = t["poles"]
+        # the job may also report weak extra poles; the 12 Hz mode is the largest one
+        p = max(t["poles"], key=lambda q: abs(q["amplitude"] or 0.0))
         assert p["natural_frequency_hz"] == pytest.approx(12.0, rel=1e-3)
         assert p["damping_ratio"] == pytest.approx(z, rel=0.05)
     assert run_cli(["history", "trend", "--rig", "demo", "--json", "--db", db]) == EXIT_OK
-    (mode,) = json.loads(capsys.readouterr().out)["modes"]
+    modes = json.loads(capsys.readouterr().out)["modes"]
+    (mode,) = [m for m in modes if abs(m["natural_frequency_hz"] - 12.0) < 0.1]
+    assert mode["principal"] and mode["n_tests"] == 4
     lo, hi = mode["damping_ratio_slope_per_day"]["ci"]
     assert lo <= -0.0025 / 30 <= hi and hi < 0
 

@@ -117,6 +117,16 @@ def _no_time_preamble_rate(values, t):
     return "\n".join(lines) + "\n"
 
 
+def _iso(values, t):
+    # t holds the stamps in seconds as text; write them as ISO-8601 from a fixed instant
+    base = np.datetime64("2026-03-01T12:00:00.000", "ms")
+    stamps = [str(base + np.timedelta64(int(round(float(s) * 1000)), "ms")) for s in t]
+    names = [f"ch{j + 1}" for j in range(values.shape[1])]
+    lines = [",".join(["timestamp", *names])]
+    lines += [",".join([s, *map(_num, row)]) for s, row in zip(stamps, values)]
+    return "\n".join(lines) + "\n"
+
+
 DIALECTS = {
     "comma": (1.0, _comma),
     "semicolon_decimal_comma": (1.0, _semicolon_decimal_comma),
@@ -132,6 +142,7 @@ DIALECTS = {
     "ns": (1e-9, _time_unit("ns")),
     "min": (60.0, _time_unit("min")),
     "no_time_preamble_rate": (None, _no_time_preamble_rate),
+    "iso8601": ("iso", _iso),
 }
 
 
@@ -147,7 +158,7 @@ def test_round_trip(folder, dialect, table):
     values, step, first = table
     factor, writer = DIALECTS[dialect]
     rows = values.shape[0]
-    step_value = step * (1e-3 if factor == 1.0 else 1.0)  # seconds files use ms-sized steps
+    step_value = step * (1e-3 if factor in (1.0, "iso") else 1.0)  # seconds: ms-sized steps
     stamps = [_num((first + k) * step_value) for k in range(rows)]
     path = folder / f"{dialect}.csv"
     path.write_bytes(writer(values, stamps).encode("utf-8"))
@@ -158,6 +169,9 @@ def test_round_trip(folder, dialect, table):
         np.testing.assert_allclose(channel.values, values[:, j], rtol=1e-12, atol=0)
     if factor is None:
         assert rec.sample_time_s == pytest.approx(1 / 250)
+        assert rec.start_s == 0.0
+    elif factor == "iso":  # seconds from the first stamp
+        assert rec.sample_time_s == pytest.approx(step_value, rel=1e-9)
         assert rec.start_s == 0.0
     else:
         assert rec.sample_time_s == pytest.approx(step_value * factor, rel=1e-9)

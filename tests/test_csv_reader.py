@@ -468,3 +468,18 @@ def test_bad_preamble_rate_ignored_when_a_time_column_exists(tmp_path):
     rec = read_record(write(tmp_path, "Interval: weekly\nSample rate: 50 Hz\ntime,x\n0,1\n0.01,2\n"))
     assert rec.sample_rate_hz == pytest.approx(100.0)
     assert any("preamble" in n and "50 Hz" in n and "time column is used" in n for n in rec.notes)
+
+
+def test_preamble_rate_and_interval_must_agree(tmp_path):
+    err = error_of(write(tmp_path, "Sample rate: 100 Hz\nSample interval: 5 ms\nx\n1\n2\n3\n"))
+    assert "disagrees" in err.message and "0.01 s" in err.message and "0.005 s" in err.message
+    rec = read_record(write(tmp_path, "Sample rate: 200 Hz\nSample interval: 5 ms\nx\n1\n2\n", "ok.csv"))
+    assert rec.sample_rate_hz == pytest.approx(200.0)
+
+
+def test_units_on_a_second_header_row(tmp_path):
+    rec = read_record(write(tmp_path, "Time;Force;Accel\ns;kN;m/s^2\n0;1;2\n0,5;3;4\n1;5;6\n"))
+    assert rec.sample_time_s == pytest.approx(0.5)
+    assert [(c.name, c.unit) for c in rec.channels] == [("Force", "kN"), ("Accel", "m/s^2")]
+    rec = read_record(write(tmp_path, "t,x\n[ms],[V]\n0,1\n2,2\n4,3\n", "b.csv"))
+    assert rec.sample_time_s == pytest.approx(2e-3) and rec.channels[0].unit == "V"

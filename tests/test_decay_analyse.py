@@ -45,8 +45,8 @@ def test_known_poles_recovered(name):
     for p, (fn, zeta, _, _), (sd_fn, sd_z) in zip(result.poles, sorted(modes), bound):
         assert abs(p.natural_frequency_hz - fn) < max(0.005 * fn, 3 * sd_fn)
         assert abs(p.damping_ratio - zeta) < max(0.1 * zeta, 3 * sd_z)
-    if pre:
-        assert abs(result.segment["start_s"] - pre / kw["fs"]) < 5 / kw["fs"] + 0.02 * pre / kw["fs"]
+    if pre:  # the analysed segment starts at the impact, within two samples
+        assert abs(result.segment["start_s"] - pre / kw["fs"]) <= 2.5 / kw["fs"]
 
 
 def test_two_close_modes_beating_resolved():
@@ -143,21 +143,21 @@ def test_bootstrap_option_reaches_the_fit():
 # -- bad input: a clear error or warning, never a made-up mode ------------------------------
 def test_constant_record_is_no_oscillation():
     t = np.arange(500) / 100.0
-    with pytest.raises(IdentificationError, match="no oscillation"):
+    with pytest.raises(IdentificationError, match="no oscillation|no response"):
         analyse_decay(Record.from_arrays(t, x=np.full(500, 2.0)))
 
 
 def test_pure_noise_is_no_oscillation():
     t = np.arange(2000) / 100.0
     y = np.random.default_rng(20).standard_normal(2000)
-    with pytest.raises(IdentificationError, match="no oscillation"):
+    with pytest.raises(IdentificationError, match="no oscillation|no response"):
         analyse_decay(Record.from_arrays(t, x=y))
 
 
 def test_real_exponential_decay_is_no_oscillation():
     t = np.arange(1000) / 100.0
     y = 3.0 * np.exp(-0.8 * t) + 1e-3 * np.random.default_rng(21).standard_normal(1000)
-    with pytest.raises(IdentificationError, match="no oscillation"):
+    with pytest.raises(IdentificationError, match="no oscillation|no response"):
         analyse_decay(Record.from_arrays(t, x=y))
 
 

@@ -3,7 +3,6 @@ and the projected crossing, with labels that carry units."""
 from __future__ import annotations
 
 import importlib
-import math
 from datetime import datetime, timedelta, timezone
 
 import numpy as np

@@ -191,3 +191,13 @@ def test_palette_is_our_own_and_distinct():
     from identify.plots import PALETTE
 
     assert len({PALETTE["measured"], PALETTE["model"], PALETTE["third"]}) == 3
+
+
+def test_step_figures_say_when_only_the_model_gives_one():
+    from identify.plots._stepplot import step_figures
+
+    found = step_figures({"settling_time_s": {"measured": None, "model": 33.9, "unit": "s"},
+                          "rise_time_s": {"measured": 16.6, "model": 17.0}, "final_value": 2.0})
+    assert found["settling_time_s"] == ("settling time (model)", 33.9, "s")
+    assert found["rise_time_s"] == ("rise time 10-90 %", 16.6, "s")
+    assert found["final_value"] == ("final value", 2.0, None)

@@ -221,3 +221,74 @@ def test_history_section_with_trend_plot(tmp_path):
     for c in trend.cautions:
         assert c in text
     assert trend.modes[0].level in text
+
+
+# -- the command line (job calls replaced by synthetic results: the plumbing is tested) ---
+def _parser():
+    import argparse
+
+    from identify.cli import _report
+
+    parser = argparse.ArgumentParser(prog="poleprint")
+    _report.register(parser.add_subparsers(dest="command"), "report", "report")
+    return parser
+
+
+def test_report_command_writes_report_plots_and_lists_failures(tmp_path, monkeypatch, capsys):
+    import identify.check
+    from identify import IdentificationError
+
+    calls = []
+
+    def fake_run_job(job, path, **options):
+        calls.append((job, path, options))
+        if path.endswith("bad.csv"):
+            raise IdentificationError("no step found in the input channel")
+        return fake_step(["step small: the step is 3 times the noise band (4 or more advised)"])
+
+    monkeypatch.setattr(identify.check, "run_job", fake_run_job)
+    out = tmp_path / "r.html"
+    args = _parser().parse_args(["report", "a.csv", "bad.csv", "-o", str(out), "--input", "u",
+                                 "--output", "y", "--plots", str(tmp_path / "png")])
+    assert args.func(args) == 3  # some files gave a result, some did not
+    assert [c[0] for c in calls] == ["step", "step"]  # --input/--output → step job
+    assert calls[0][2]["input"] == "u" and calls[0][2]["output"] == "y"
+    captured = capsys.readouterr()
+    assert "wrote" in captured.out and "3 figure(s)" in captured.out
+    assert "poleprint: error: bad.csv: no step found in the input channel" in captured.err
+    _, page, text = _parse(out)
+    assert "bad.csv: not analysed: no step found in the input channel" in text
+    assert "step small: the step is 3 times the noise band (4 or more advised)" in text
+    assert len(list((tmp_path / "png").glob("*.png"))) == len(page.imgs) == 3
+
+
+def test_report_command_without_any_result_writes_nothing(tmp_path, monkeypatch, capsys):
+    import identify.check
+    from identify import RecordError
+
+    def failing(job, path, **options):
+        raise RecordError("cannot read the file")
+
+    monkeypatch.setattr(identify.check, "run_job", failing)
+    out = tmp_path / "r.html"
+    args = _parser().parse_args(["report", "x.csv", "-o", str(out), "--job", "arx"])
+    assert args.func(args) == 2
+    assert not out.exists()
+    assert "no report written" in capsys.readouterr().err
+
+
+def test_run_job_passes_only_the_options_a_job_accepts():
+    from identify.check._jobs import accepted_options, job_of_saved
+
+    def analyse(record, *, column=None, confidence=0.95):
+        return record
+
+    assert accepted_options(analyse, {"column": "a", "input": "u", "confidence": 0.9}) == {
+        "column": "a", "confidence": 0.9}
+    assert job_of_saved({"job": "arx"}) == "arx"
+    assert job_of_saved({"segment": {}, "methods": {}}) == "decay"
+    assert job_of_saved({"metrics": {}, "tuning": {}}) == "step"
+    from identify import ParameterValueError
+
+    with pytest.raises(ParameterValueError, match="cannot tell which job"):
+        job_of_saved({"poles": []})

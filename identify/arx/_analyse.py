@@ -96,7 +96,7 @@ def _load_record(record_or_path, sample_rate_hz, nan):
 
     if isinstance(record_or_path, Record):
         return record_or_path
-    from .. import read_record
+    from .._csv import read_record
 
     return read_record(record_or_path, sample_rate_hz=sample_rate_hz, nan=nan)
 
@@ -199,7 +199,8 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
     38(6), 1989.
     Ljung, G. M. and Box, G. E. P., Biometrika 65(2), 1978.
     """
-    from ._decimate import choose_factor, decimate_signals, refine_factor
+    from ._decimate import (choose_factor, decimate_signals, hold_period, input_limited_factor,
+                            largest_divisor, refine_factor)
     from ._fit import check_signals, fit_arx
     from ._orders import order_scan, search_orders
 
@@ -247,11 +248,12 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
     ts0 = record.sample_time_s
     t0 = float(record.time_s[lo])
 
-    def stage(q, warnings):
-        """Decimate by q, split, centre, search orders, fit; return the state."""
+    def stage(q):
+        """Decimate by q, split, centre, search orders, fit by least squares."""
         # -- decimation ----------------------------------------------------------------
         if q > 1:
-            (y, u), skipped = decimate_signals([y_all, u_all], q)
+            held = phase if (hold >= 2 and hold % q == 0) else None
+            (y, u), skipped = decimate_signals([y_all, u_all], q, hold_phase=held)
             if y.size < 10:
                 raise IdentificationError(
                     f"decimating by {q} leaves only {y.size} samples; use a smaller factor or decimate='off'")
@@ -284,28 +286,30 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
                     f"no candidate model could be fitted to the {n_est} estimation samples; give a longer record")
             best = rows[0]
             na, nb, nk = best["na"], best["nb"], best["delay_samples"]
-            if refine == "iv" and fixed_orders is None:
-                from ._iv import search_orders_iv
-
-                iv_rows = search_orders_iv(yc, uc, range(1, max_order + 1), nk, criterion, ts, stop=n_est)
-                if iv_rows:
-                    rows = iv_rows
-                    best = rows[0]
-                    na, nb = best["na"], best["nb"]
             table = tuple(rows)
-            if fixed_orders is None and (na == max_order or (has_input and nb == max_order)):
-                warnings.append(f"order at limit: the {criterion.upper()} search chose na = {na}, nb = {nb}, "
-                                f"the largest searched (max_order = {max_order}); the record may need a higher order")
-            if has_input and fixed_delay is None and nk == max_delay and max_delay > 0:
-                warnings.append(f"delay at limit: the search chose a delay of {nk} samples, the largest searched "
-                                f"(max_delay = {max_delay}); the true delay may be longer")
         else:
             na, nb = fixed_orders
             nk = fixed_delay if has_input else 0
 
-        # -- fit -----------------------------------------------------------------------
-        ls = fit_arx(yc[:n_est], None if uc is None else uc[:n_est], na, nb, nk, ts, level)
-        final, iv_fit = ls, None
+        # -- least-squares fit -----------------------------------------------------------
+        ls = fit_arx(yc[:n_est], None if uc is None else uc[:n_est], na, nb, nk, ts, level, constant=True)
+        return dict(q=q, y=y, u=u, yc=yc, uc=uc, y_mean=y_mean, u_mean=u_mean, n_est=n_est,
+                    n_hold=n_hold, ts=ts, t_start=t_start, table=table, ls=ls, na=na, nb=nb, nk=nk)
+
+    def refine_stage(st):
+        """IV order search (refine="iv", orders="auto"), the IV fit and the final model."""
+        yc, uc, n_est, ts, nk = st["yc"], st["uc"], st["n_est"], st["ts"], st["nk"]
+        ls, table = st["ls"], st["table"]
+        if refine == "iv" and fixed_orders is None:
+            from ._iv import search_orders_iv
+
+            delays = [nk] if fixed_delay is not None else [k for k in (nk - 1, nk, nk + 1) if 0 <= k <= max_delay]
+            iv_rows = search_orders_iv(yc, uc, range(1, max_order + 1), delays, criterion, ts, stop=n_est)
+            if iv_rows:
+                best = iv_rows[0]
+                table, nk = tuple(iv_rows), best["delay_samples"]
+                ls = fit_arx(yc[:n_est], uc[:n_est], best["na"], best["nb"], nk, ts, level, constant=True)
+        iv_fit = None
         if has_input:
             from ._iv import refine_iv
 
@@ -314,26 +318,43 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
             except IdentificationError:
                 if refine == "iv":
                     raise
-                iv_fit = None
-            if refine == "iv":
-                final = iv_fit
-
-        return dict(warnings=warnings, q=q, y=y, u=u, yc=yc, uc=uc, y_mean=y_mean, u_mean=u_mean, n_est=n_est,
-                    n_hold=n_hold, ts=ts, t_start=t_start, table=table, ls=ls, iv_fit=iv_fit,
-                    final=final, na=na, nb=nb, nk=nk)
+        final = iv_fit if refine == "iv" else ls
+        return dict(st, table=table, ls=ls, iv_fit=iv_fit, final=final, na=final.na, nb=final.nb, nk=nk)
 
     # -- decimation: fixed, or automatic in two passes ------------------------------
     f99 = None
+    hold, phase = hold_period(u_all) if u_all is not None else (1, 0)
+
+    def allowed(q, multiple_of=1):
+        """The largest usable factor up to q (input held: a divisor of its clock)."""
+        if q <= 1 or u_all is None:
+            return max(int(q), 1)
+        if hold >= 2:
+            return largest_divisor(hold, q, multiple_of)
+        return input_limited_factor(u_all, ts0, q, INPUT_POWER_ABOVE_BAND)
+
     if q_request == "auto":
-        q_first, f99 = choose_factor(y_all, ts0)
-        state = stage(q_first, list(warnings))
-        q_more = refine_factor(state["final"], state["ts"], y_all.size // q_first)
+        target, f99 = choose_factor(y_all, ts0)
+        q_first = allowed(target)
+        state = stage(q_first)
+        q_more = refine_factor(state["ls"], state["ts"], y_all.size // q_first)
         if q_more > 1:
-            state = stage(q_first * q_more, list(warnings))
+            q_total = allowed(q_first * q_more, q_first)
+            if q_total > q_first:
+                state = stage(q_total)
     else:
-        state = stage(q_request, list(warnings))
-    warnings = state.pop("warnings")
-    if state["q"] > 1 and has_input:
+        state = stage(q_request)
+    state = refine_stage(state)
+    na, nb, nk = state["na"], state["nb"], state["nk"]
+    if state["table"]:
+        if fixed_orders is None and (na == max_order or (has_input and nb == max_order)):
+            warnings.append(f"order at limit: the {criterion.upper()} search chose na = {na}, nb = {nb}, "
+                            f"the largest searched (max_order = {max_order}); the record may need a higher order")
+        if has_input and fixed_delay is None and nk == max_delay and max_delay > 0:
+            warnings.append(f"delay at limit: the search chose a delay of {nk} samples, the largest searched "
+                            f"(max_delay = {max_delay}); the true delay may be longer")
+    held_input = has_input and hold >= 2 and hold % state["q"] == 0
+    if state["q"] > 1 and has_input and not held_input:
         from ._decimate import power_fraction_above
 
         edge_hz = 0.8 * 0.5 / (ts0 * state["q"])
@@ -360,6 +381,8 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
                       "delay": "auto" if (has_input and fixed_delay is None) else nk,
                       "criterion": criterion, "confidence": level, "refine": refine,
                       "holdout": holdout, "decimate": q_request, "decimation_factor": q,
+                      "decimation_method": (None if q == 1 else "subsampled on the input's hold clock"
+                                            if held_input else "anti-alias filter"),
                       "power_bandwidth_hz": f99, "sample_time_s": ts, "record_sample_time_s": ts0,
                       "start_s": start_s, "end_s": end_s, "analysed_start_s": t_start,
                       "nan": nan, "max_order": max_order, "max_delay": max_delay,

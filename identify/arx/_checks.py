@@ -54,10 +54,11 @@ def assess(*, record, out_ch, in_ch, ls, iv_fit, final, y, u, yc, uc, y_mean, u_
     # -- model output over the whole analysed record ------------------------------
     if has_input:
         with np.errstate(over="ignore", invalid="ignore"):
-            model_c = simulate_with_estimated_state(final.a, final.b, nk, uc, yc, m, n_est)
+            model_c = simulate_with_estimated_state(final.a, final.b, nk, uc, yc, m, n_est,
+                                                    constant=final.constant or 0.0)
         method = "simulation"
     else:
-        model_c = predict_one_step(final.a, final.b, nk, yc)
+        model_c = predict_one_step(final.a, final.b, nk, yc, constant=final.constant or 0.0)
         method = "one-step prediction"
     model = model_c + y_mean
 

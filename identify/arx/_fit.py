@@ -121,7 +121,9 @@ def check_signals(y, u, na, nb, delay):
     na = check_int("na", na, minimum=0)
     delay = check_int("delay", delay, minimum=0)
     if u is None:
-        nb = check_int("nb", nb, minimum=0, maximum=0) if nb else 0
+        if nb:
+            raise ParameterValueError(f"without an input the model is an autoregression: nb must be 0; got {nb!r}")
+        nb = 0
     else:
         u = check_array_1d("input", u, min_length=3)
         if u.size != y.size:

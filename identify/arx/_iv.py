@@ -35,6 +35,11 @@ __all__ = ["refine_iv", "search_orders_iv", "iv_lag_window", "reflect_unstable"]
 STABILITY_RADIUS = 0.999
 
 
+#: Instrument updates per candidate in :func:`search_orders_iv` (over-parametrised models
+#: wander instead of converging; a few updates rank the orders; common practice, no source).
+SEARCH_ITERATIONS = 6
+
+
 def iv_lag_window(na: int) -> int:
     """L of the Bartlett window: ``max(4·na, 10)`` lags (common practice, no source)."""
     return max(4 * int(na), 10)
@@ -79,7 +84,8 @@ def refine_iv(fit, y, u, *, iterations: int = 20, tolerance: float = 1e-9, stop:
     Parameters
     ----------
     fit : ArxFit
-        The least-squares fit (orders, delay and starting model), fitted without a constant.
+        The least-squares fit (orders, delay and starting model); a fitted constant is
+        refined too (its column of ones passes through the same prefilter).
     y, u : numpy.ndarray
         The same centred output and input the fit used.
     iterations : int, default=20
@@ -113,8 +119,7 @@ def refine_iv(fit, y, u, *, iterations: int = 20, tolerance: float = 1e-9, stop:
 
     if u is None or fit.nb == 0:
         raise IdentificationError("the instrumental-variable refinement needs an input channel")
-    if fit.constant is not None:
-        raise IdentificationError("the instrumental-variable refinement works on centred data (no constant)")
+    const = fit.constant is not None
     last = np.size(y) if stop is None else int(stop)
     y = np.asarray(y, dtype=float)[:last]
     u = np.asarray(u, dtype=float)[:last]
@@ -128,6 +133,10 @@ def refine_iv(fit, y, u, *, iterations: int = 20, tolerance: float = 1e-9, stop:
         yf, uf, xf = (lfilter([1.0], a_s, v) for v in (y, u, x_hat))
         phi, target = regressors(yf, uf, na, nb, nk, start=first)
         z, _ = regressors(xf, uf, na, nb, nk, start=first)
+        if const:  # the constant c enters as a column of ones, through the same prefilter
+            ones = lfilter([1.0], a_s, np.ones(y.size))[first:]
+            phi = np.column_stack([phi, ones])
+            z = np.column_stack([z, ones])
         scale = np.sqrt(np.mean(phi * phi, axis=0))
         scale[scale == 0] = 1.0
         # orthonormal instruments Q (Z = QR) give the same estimate, (QᵀΦ)⁻¹Qᵀy, with the
@@ -149,14 +158,14 @@ def refine_iv(fit, y, u, *, iterations: int = 20, tolerance: float = 1e-9, stop:
     rows, p = target.size, theta.size
     cov = _sandwich(q_inst, phi / scale, residuals, iv_lag_window(na)) / np.outer(scale, scale)
     # the loss is reported on the unfiltered equations, comparable with least squares
-    phi_raw, target_raw = regressors(y, u, na, nb, nk, start=first)
+    phi_raw, target_raw = regressors(y, u, na, nb, nk, start=first, constant=const)
     raw = target_raw - phi_raw @ theta
     rss = float(raw @ raw)
     return assemble_fit(theta, cov, raw, rss / (rows - p), rss / rows, rows, first,
-                        na, nb, nk, fit.sample_time_s, fit.confidence, False, "instrumental variables")
+                        na, nb, nk, fit.sample_time_s, fit.confidence, const, "instrumental variables")
 
 
-def search_orders_iv(y, u, orders, delay: int, criterion: str, sample_time_s: float, *,
+def search_orders_iv(y, u, orders, delays, criterion: str, sample_time_s: float, *,
                      stop: int | None = None):
     """Rank ``na = nb = n`` by the criterion on each IV model's simulation error.
 
@@ -164,7 +173,9 @@ def search_orders_iv(y, u, orders, delay: int, criterion: str, sample_time_s: fl
     model the coloured equation error); an instrumental-variable model is judged
     instead by its simulation error ``y - ŷ`` (initial state fitted, see
     :func:`simulate_with_estimated_state`) over a common sample, with the same
-    AIC/BIC/FPE formulas and ``d = na + nb``.
+    AIC/BIC/FPE formulas and ``d = na + nb``, for every delay in ``delays`` (an int or
+    a sequence; least squares can misplace the delay too).  Each candidate gets at most
+    ``SEARCH_ITERATIONS`` instrument updates; the chosen order is then refined fully.
 
     Returns
     -------
@@ -181,24 +192,27 @@ def search_orders_iv(y, u, orders, delay: int, criterion: str, sample_time_s: fl
     u = np.asarray(u, dtype=float)
     last = y.size if stop is None else int(stop)
     orders = sorted({int(n) for n in orders if int(n) > 0})
-    start = max(max_lag(n, n, delay) for n in orders)
+    delays = sorted({int(k) for k in np.atleast_1d(delays) if int(k) >= 0})
+    start = max(max_lag(n, n, k) for n in orders for k in delays)
     rows = []
-    for n in orders:
-        try:
-            ls = fit_arx(y[:last], u[:last], n, n, delay, sample_time_s, start=start)
-            iv = refine_iv(ls, y, u, stop=last)
-        except IdentificationError:
-            continue
-        with np.errstate(over="ignore", invalid="ignore"):
-            sim = simulate_with_estimated_state(iv.a, iv.b, delay, u[:last], y[:last], start, last)
-        err = (y[:last] - sim)[start:]
-        if not np.all(np.isfinite(err)):
-            continue
-        loss = float(err @ err) / err.size
-        row = {"na": n, "nb": n, "delay_samples": int(delay), "parameters": 2 * n, "loss": loss,
-               "estimator": "instrumental variables"}
-        row.update(information_criteria(loss, err.size, 2 * n))
-        rows.append(row)
+    for delay in delays:
+        for n in orders:
+            try:
+                ls = fit_arx(y[:last], u[:last], n, n, delay, sample_time_s, start=start)
+                iv = refine_iv(ls, y, u, stop=last, iterations=SEARCH_ITERATIONS)
+            except IdentificationError:
+                continue
+            with np.errstate(over="ignore", invalid="ignore"):
+                sim = simulate_with_estimated_state(iv.a, iv.b, delay, u[:last], y[:last], start, last)
+            err = (y[:last] - sim)[start:]
+            with np.errstate(over="ignore", invalid="ignore"):
+                loss = float(np.mean(err * err))
+            if not np.isfinite(loss):  # a diverging simulation: not a candidate
+                continue
+            row = {"na": n, "nb": n, "delay_samples": int(delay), "parameters": 2 * n, "loss": loss,
+                   "estimator": "instrumental variables"}
+            row.update(information_criteria(loss, err.size, 2 * n))
+            rows.append(row)
     rows.sort(key=lambda r: (r[criterion], r["parameters"]))
     for i, r in enumerate(rows):
         r["selected"] = i == 0

@@ -40,7 +40,9 @@ def simulate(a, b, delay: int, u, y_initial=None, *, constant: float = 0.0):
     a = np.asarray(a, dtype=float)
     bn = numerator(b, delay) if np.size(b) else np.zeros(1)
     if u is None:
-        raise ValueError("simulate needs an input (a pure autoregression has only a free response)")
+        from .._errors import ParameterValueError
+
+        raise ParameterValueError("simulate needs an input (a pure autoregression has only a free response)")
     u = np.asarray(u, dtype=float)
     n = u.size
     # a constant c shifts the equilibrium by c/A(1): simulate the deviation, add it back
@@ -82,7 +84,8 @@ def predict_one_step(a, b, delay: int, y, u=None, *, constant: float = 0.0):
     return pred
 
 
-def simulate_with_estimated_state(a, b, delay: int, u, y, first: int, stop: int):
+def simulate_with_estimated_state(a, b, delay: int, u, y, first: int, stop: int, *,
+                                  constant: float = 0.0):
     """Simulate from the input with the initial state fitted to the measured output.
 
     The response to the input before the record and to the plant's initial state
@@ -91,6 +94,8 @@ def simulate_with_estimated_state(a, b, delay: int, u, y, first: int, stop: int)
     Their weights are fitted by least squares to ``y - y_forced`` over the samples
     ``first .. stop-1`` (the estimation part: the hold-out part is never used), so the
     simulation carries no transient from a noisy measured initial condition.
+
+    ``constant`` is the model's constant c, an extra input of ones through ``1/A``.
 
     Returns
     -------
@@ -104,6 +109,8 @@ def simulate_with_estimated_state(a, b, delay: int, u, y, first: int, stop: int)
     y = np.asarray(y, dtype=float)
     n = u.size
     forced = lfilter(numerator(b, delay), a, u)
+    if constant:
+        forced = forced + lfilter([float(constant)], a, np.ones(n))
     na = a.size - 1
     if na == 0:
         return forced

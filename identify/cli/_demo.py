@@ -23,6 +23,8 @@ DEMO_RECORDS = (
     ("motor_prbs.csv", "arx", {"input": "drive", "output": "speed"}),
 )
 DEMO_RIG = "fulmar"
+#: the history needs the answer only: the decay job without its cross-check methods
+HISTORY_OPTIONS = {"method": "fit"}
 DEMO_RIG_FOLDER = ("history", "fulmar")
 
 
@@ -80,9 +82,11 @@ def _history(out_dir: Path, data: Path):
     db = out_dir / "demo-history.sqlite"
     with HistoryStore(db) as store:
         for f in files:
-            store.add(DEMO_RIG, f, analyse=lambda p: run_job("decay", p), job="decay")
+            store.add(DEMO_RIG, f, analyse=lambda p: run_job("decay", p, **HISTORY_OPTIONS),
+                      job="decay")
         trend = analyse_trend(store.get(DEMO_RIG), rig=DEMO_RIG, threshold_damping=0.01)
-    return trend, f"history: {len(files)} tests of rig '{DEMO_RIG}' in {db}"
+    return trend, (f"history: {len(files)} monthly tests of rig '{DEMO_RIG}' (decay job, "
+                   f"method fit) in {db}")
 
 
 def run(args) -> int:
@@ -125,7 +129,11 @@ def run(args) -> int:
     if note:
         print(f"  {note}")
     if trend is not None:
-        for m in trend.to_dict().get("modes", []):
+        modes = [m for m in trend.to_dict().get("modes", []) if m.get("damping_ratio_slope_per_day")]
+        modes.sort(key=lambda m: (m.get("level") in ("steady", "increasing"), m.get("natural_frequency_hz") or 0))
+        if len(modes) > 6:
+            print(f"    ({len(modes) - 6} more tracked mode(s) in the report)")
+        for m in modes[:6]:
             slope = m.get("damping_ratio_slope_per_day") or {}
             value = slope.get("value") if isinstance(slope, dict) else slope
             cross = m.get("threshold_crossing")

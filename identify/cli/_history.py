@@ -265,8 +265,11 @@ def _render_trend(trend) -> str:
     else:
         lines.append(f"rig '{trend.rig}': {trend.n_tests} test(s) from {trend.origin_time[:10]}; "
                      f"threshold ζ = {trend.threshold_damping:g}; {pct} intervals")
+    principal = trend.principal_modes
+    names = {m.mode for m in principal}
+    others = [m for m in trend.modes if m.mode not in names]
     rows = []
-    for m in trend.modes:
+    for m in principal:
         fit = m.damping_fit
         slope = "-" if fit is None else (f"{fmt(fit.slope_per_day * 365.25, 3)} "
                                          f"{fmt_interval([v * 365.25 for v in fit.slope_ci], 3)}")
@@ -277,7 +280,10 @@ def _render_trend(trend) -> str:
     if rows:
         lines.append(table(["mode", "fn (Hz)", "tests", "latest ζ", f"ζ change per year [{pct}]",
                             "level", "projected crossing (indicative)"], rows))
-    for m in trend.modes:
+    if others:
+        lines.append(f"other modes (found in fewer tests; see --json): "
+                     + ", ".join(f"{fmt(m.natural_frequency_hz)} Hz in {len(m.test_ids)} test(s)" for m in others))
+    for m in principal:
         step = m.step_change or {}
         if step.get("detected"):
             lines.append(f"step change: {m.mode} between {step['between'][0]} and {step['between'][1]}: "
@@ -289,8 +295,17 @@ def _render_trend(trend) -> str:
             f = m.frequency_fit
             lines.append(f"frequency: {m.mode}: {fmt(f.slope_per_day * 365.25, 3)} Hz per year "
                          f"{fmt_interval([v * 365.25 for v in f.slope_ci], 3)}")
+    # events of the principal modes; of the others only those still seen in the latest test
+    latest = max(((t, i) for m in trend.modes for t, i in zip(m.test_times, m.test_ids)), default=(None, None))
+    last_id = latest[1]
+    keep = names | {m.mode for m in others if m.test_ids and m.test_ids[-1] == last_id}
     for e in trend.events:
-        lines.append(f"modes: {e}")
+        label = e.split(": ", 1)[1].split(" (", 1)[0]
+        if label in keep:
+            lines.append(f"modes: {e}")
+    hidden = sum(1 for e in trend.events if e.split(": ", 1)[1].split(" (", 1)[0] not in keep)
+    if hidden:
+        lines.append(f"modes: {hidden} more appear/missing/disappear line(s) for the other modes (see --json)")
     lines.append("cautions:")
     lines.extend(f"  - {c}" for c in trend.cautions)
     return "\n".join(lines)

@@ -16,8 +16,8 @@ import numpy as np
 from .._errors import IdentificationError
 from .._validate import check_array_1d
 
-__all__ = ["StepEvent", "detect_step", "noise_std", "steady_statistic", "STEADY_LIMIT",
-           "CLEAN_STEP_SAMPLES"]
+__all__ = ["StepEvent", "detect_step", "noise_std", "steady_statistic", "settled_tail",
+           "STEADY_LIMIT", "CLEAN_STEP_SAMPLES"]
 
 #: A window is called steady when its fitted linear drift is below this many noise
 #: standard deviations.  Common practice, no source.
@@ -74,9 +74,34 @@ def steady_statistic(time_s, values, sigma=None) -> float:
     s = noise_std(x) if sigma is None else float(sigma)
     s = max(s, float(np.std(resid)) if sigma is None else s)
     drift = abs(slope) * float(t[-1] - t[0])
+    if drift <= 1e-9 * float(np.max(np.abs(x))):  # rounding of a constant window
+        return 0.0
     if s <= 0:
         return 0.0 if drift == 0 else float("inf")
     return drift / s
+
+
+def settled_tail(time_s, values, *, change, band=0.02, fraction=0.2, sigma=None) -> tuple:
+    """Has a step response settled by the end of the record?  Returns ``(settled, drift)``.
+
+    A straight line is fitted to the last ``fraction`` of the response; ``drift`` is its
+    change over that part.  The tail counts as settled when the drift is within
+    ``band·|change|`` or below ``STEADY_LIMIT`` noise standard deviations (``sigma``,
+    default :func:`noise_std` of the tail).
+    """
+    t = np.asarray(time_s, dtype=float)
+    x = np.asarray(values, dtype=float)
+    ok = np.isfinite(x)
+    t, x = t[ok], x[ok]
+    m = max(5, int(round(fraction * x.size)))
+    t, x = t[-m:], x[-m:]
+    if x.size < 3:
+        return True, 0.0
+    tc = t - t.mean()
+    slope = float(tc @ (x - x.mean()) / (tc @ tc)) if tc @ tc > 0 else 0.0
+    drift = abs(slope) * float(t[-1] - t[0])
+    s = noise_std(x) if sigma is None else float(sigma)
+    return bool(drift <= band * abs(float(change)) or drift < STEADY_LIMIT * s), drift
 
 
 @dataclass(frozen=True)

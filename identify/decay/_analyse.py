@@ -26,8 +26,14 @@ MAX_DRIFT_FRACTION = 0.1    # baseline change over the segment / largest amplitu
 MAX_ZETA_REL_HALF_WIDTH = 0.5   # ζ interval half-width / ζ beyond which it is not useful
 MAX_FN_REL_HALF_WIDTH = 0.02    # fn interval half-width / fn beyond which it is not useful
 MATCH_TOLERANCE = 0.1       # relative frequency distance for matching modes across methods
+MIN_SEGMENT_SAMPLES = 64    # a shorter detected segment is lengthened (end) for the pencil
+EXTEND_RMS = 2.0            # segment extension: block RMS of the residual <= 2 noise std
+EXTEND_PEAK = 5.0           # ... and no sample beyond 5 noise std in the block
+EXTEND_EDGE = 3.0           # in the first failing block, kept up to 2 samples in a row beyond 3 std
+EXTEND_ROUNDS = 4           # grow, refit, grow again (the refit extrapolates better)
 #: cross-check methods get a block-averaged copy of records longer than this
 CROSS_CHECK_MAX_SAMPLES = 50_000
+HALFPOWER_MAX_SAMPLES = 20_000
 
 
 def _load(record_or_path, sample_rate_hz, nan):
@@ -69,8 +75,15 @@ def _segment(t, y, start_s, end_s, source):
         from ..conditioning._segment import detect_decay_segment
     except ImportError:  # conditioning not available: the whole record (or the given bounds)
         detect_decay_segment = None
+    seg = None
     if detect_decay_segment is not None:
-        seg = detect_decay_segment(t, y, start_s=start_s, end_s=end_s)
+        try:
+            seg = detect_decay_segment(t, y, start_s=start_s, end_s=end_s)
+        except IdentificationError as exc:
+            # detection found nothing it trusts: analyse the whole record (or the given
+            # bounds) and let the pencil's own noise test decide; never a made-up mode
+            info["detection"] = f"failed: {' '.join(str(exc).split())}"
+    if seg is not None:
         s0, s1 = float(seg.start_s), float(seg.end_s)
         info = {"trigger_s": getattr(seg, "trigger_s", None), "noise_std": getattr(seg, "noise_std", None)}
         if hasattr(seg, "to_dict"):
@@ -81,15 +94,20 @@ def _segment(t, y, start_s, end_s, source):
     ts = float(t[1] - t[0])
     lo = int(np.searchsorted(t, s0 - 1e-9 * ts))
     hi = int(np.searchsorted(t, s1 + 1e-9 * ts, "right"))
+    short = end_s is None and hi - lo < MIN_SEGMENT_SAMPLES and hi < t.size
+    if short:  # a heavily damped decay: give the pencil something to work on
+        hi = min(t.size, lo + MIN_SEGMENT_SAMPLES)
     if hi - lo < 16:
         raise IdentificationError(f"the decay segment {s0:g} s to {s1:g} s holds {hi - lo} samples "
                                   f"(16 or more needed)", source)
     if start_s is not None and end_s is not None:
         chosen = "given"
-    elif detect_decay_segment is None:
+    elif seg is None:
         chosen = "whole record" if start_s is None and end_s is None else "given and record end"
     else:
         chosen = "detected" if start_s is None and end_s is None else "given and detected"
+    if short:
+        chosen += f", end moved to hold {MIN_SEGMENT_SAMPLES} samples"
     info.update({"start_s": float(t[lo]), "end_s": float(t[hi - 1]), "chosen_by": chosen,
                  "pretrigger_samples": lo})
     return lo, hi, info
@@ -125,19 +143,72 @@ def _clipping(t, y, name):
     return text, last
 
 
-def _block_copy(t, y, fastest_hz):
-    """Block-averaged copy of about 50,000 samples, keeping >= 20 samples per period of
-    the fastest mode (poles preserved exactly), for the cross-checks on long records."""
+def _block_copy(t, y, fastest_hz, min_samples_per_period, max_samples):
+    """Block-averaged copy of about ``max_samples`` samples, keeping at least
+    ``min_samples_per_period`` samples per period of the fastest mode (poles preserved
+    exactly), for the cross-checks on long records."""
     from ._pencil import block_decimate
 
-    if y.size <= CROSS_CHECK_MAX_SAMPLES or not fastest_hz > 0:
+    if y.size <= max_samples or not fastest_hz > 0:
         return t, y, 1
     ts = float(t[1] - t[0])
-    q = int(min(1.0 / (ts * 20.0 * fastest_hz), -(-y.size // CROSS_CHECK_MAX_SAMPLES)))
+    q = int(min(1.0 / (ts * min_samples_per_period * fastest_hz), -(-y.size // max_samples)))
     if q < 2:
         return t, y, 1
     td, yd = block_decimate(t, y, q)
     return td, yd, q
+
+
+def _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted):
+    """Grow ``[lo, hi)`` outwards (to ``lo_min`` / ``hi_max``) while the fitted free-decay
+    model explains the samples: blocks of about one period whose residual RMS stays within
+    ``EXTEND_RMS`` noise std and no sample beyond ``EXTEND_PEAK``; in the first failing
+    block the samples are kept up to the first one beyond ``EXTEND_PEAK`` noise std, or the
+    first of two in a row beyond ``EXTEND_EDGE``."""
+    from ._nls import model_values
+
+    d = fitted.details
+    terms = d.get("terms")
+    if not terms or (lo <= lo_min and hi >= hi_max):
+        return lo, hi
+    sg = [-x["real"] for x in terms]
+    om = [x["imag"] for x in terms]
+    cc = [x["c"] for x in terms]
+    dd = [x["d"] for x in terms]
+
+    def resid(a, b):
+        tau = t_all[a:b] - d["t_ref_s"]
+        return y_all[a:b] - model_values(tau, sg, om, cc, dd, d["offset"], d["drift_per_s"] or 0.0)
+
+    noise = float(np.std(resid(lo, hi)))
+    if not noise > 0:
+        return lo, hi
+    ts = float(t_all[1] - t_all[0])
+    slowest_hz = min(x["imag"] for x in terms) / (2 * math.pi)
+    w = int(np.clip(round(1.0 / (ts * slowest_hz)), 16, 5000))
+
+    def grow(r):  # r ordered outwards from the segment; returns how many samples to take
+        nb = r.size // w
+        if nb:
+            blocks = r[: nb * w].reshape(nb, w)
+            ok = (np.sqrt(np.mean(blocks ** 2, axis=1)) <= EXTEND_RMS * noise) & \
+                 (np.max(np.abs(blocks), axis=1) <= EXTEND_PEAK * noise)
+            fail = np.flatnonzero(~ok)
+            if fail.size == 0:
+                start_partial = nb * w
+            else:
+                start_partial = int(fail[0]) * w
+        else:
+            start_partial = 0
+        rest = np.abs(r[start_partial:start_partial + w]) / noise
+        over = rest > EXTEND_EDGE
+        stop = (rest > EXTEND_PEAK) | (over & np.concatenate((over[1:], [True])))
+        beyond = np.flatnonzero(stop)
+        return start_partial + (int(beyond[0]) if beyond.size else rest.size)
+
+    new_lo = lo - grow(resid(lo_min, lo)[::-1]) if lo > lo_min else lo
+    new_hi = hi + grow(resid(hi, hi_max)) if hi < hi_max else hi
+    return int(new_lo), int(new_hi)
 
 
 def _cycles_above_noise(pole, duration_s, noise):
@@ -152,6 +223,12 @@ def _cycles_above_noise(pole, duration_s, noise):
     return max(visible, 0.0) * pole.damped_frequency_hz
 
 
+def _why(exc):
+    if isinstance(exc, PoleprintError):
+        return exc.message
+    return f"failed ({type(exc).__name__}: {exc})"
+
+
 def _not_used(name, why):
     """A method that did not run on this record, with the reason (no poles)."""
     text = " ".join(str(why).split())
@@ -163,6 +240,15 @@ def _interval_summary(p):
     return {"natural_frequency_hz": p.natural_frequency_hz, "damping_ratio": p.damping_ratio,
             "natural_frequency_ci_hz": None if ci is None else list(ci.natural_frequency_hz),
             "damping_ratio_ci": None if ci is None else list(ci.damping_ratio)}
+
+
+def _at_least(ci, reference):
+    """``ci`` widened about its centre to at least the half-width of ``reference``."""
+    if ci is None or reference is None:
+        return ci
+    centre, half = 0.5 * (ci[0] + ci[1]), 0.5 * (ci[1] - ci[0])
+    half = max(half, 0.5 * (reference[1] - reference[0]))
+    return [centre - half, centre + half]
 
 
 def _overlap(a, b):
@@ -186,8 +272,12 @@ def _consensus(answer: MethodEstimate, methods: dict):
                 row["estimates"][name] = None
                 continue
             other = _interval_summary(q)
-            agree_fn = _overlap(mine["natural_frequency_ci_hz"], other["natural_frequency_ci_hz"])
-            agree_z = _overlap(mine["damping_ratio_ci"], other["damping_ratio_ci"])
+            # the answer's interval is at the Cramér–Rao bound, which no unbiased method
+            # beats: a cross-check's narrower interval is widened to it before comparing
+            agree_fn = _overlap(mine["natural_frequency_ci_hz"],
+                                _at_least(other["natural_frequency_ci_hz"], mine["natural_frequency_ci_hz"]))
+            agree_z = _overlap(mine["damping_ratio_ci"],
+                               _at_least(other["damping_ratio_ci"], mine["damping_ratio_ci"]))
             other["agree"] = bool(agree_fn and agree_z)
             row["estimates"][name] = other
             if not other["agree"]:
@@ -318,29 +408,40 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
     if y_all.size < 16:
         raise IdentificationError(f"{y_all.size} samples are too few for a free-decay analysis (16 or more needed)")
     lo, hi, seg_info = _segment(t_all, y_all, start_s, end_s, source)
-    t, y = t_all[lo:hi], y_all[lo:hi]
-    if not np.ptp(y) > 0:
+    # how far the segment may later grow: back to just after the trigger (or the record
+    # start), forward to the record end; never past a bound the caller gave
+    trigger = seg_info.get("trigger_s")
+    if start_s is not None:
+        lo_min = lo
+    elif trigger is not None:
+        lo_min = min(lo, int(np.searchsorted(t_all, float(trigger), "right")))
+    else:
+        lo_min = 0
+    hi_max = hi if end_s is not None else y_all.size
+    if not np.ptp(y_all[lo:hi]) > 0:
         raise IdentificationError("no oscillation: the signal is constant over the analysed segment")
 
-    # clipping: analyse only after the last clipped sample
-    clip_text, last_clipped = _clipping(t, y, channel.name)
+    # clipping (looked for from the trigger on): analyse only after the last clipped sample
+    clip_text, last_clipped = _clipping(t_all[lo_min:hi], y_all[lo_min:hi], channel.name)
     if clip_text:
         warnings = [w for w in warnings if not w.startswith("clipping:")]
         if last_clipped is not None and last_clipped >= 0:
-            first = last_clipped + 1
-            if y.size - first < 16:
+            first = lo_min + last_clipped + 1
+            if hi - first < 16:
                 raise IdentificationError(f"{clip_text}; too few unclipped samples after the last clipped one "
                                           f"to analyse the decay")
-            t, y = t[first:], y[first:]
-            seg_info["start_s"] = float(t[0])
-            seg_info["chosen_by"] = seg_info["chosen_by"] + ", moved past clipping"
-            clip_text += f"; analysed from {t[0]:g} s, after the last clipped sample"
+            lo_min = first
+            if lo < first:
+                lo = first
+                seg_info["chosen_by"] = seg_info["chosen_by"] + ", moved past clipping"
+            clip_text += f"; analysed from {t_all[lo]:g} s, after the last clipped sample"
         warnings.append(clip_text)
+    t, y = t_all[lo:hi], y_all[lo:hi]
+    seg_info["start_s"], seg_info["end_s"] = float(t[0]), float(t[-1])
 
     # baseline: the quiet part before the segment when there is one, else the segment
     from ..conditioning._trend import estimate_offset_trend
 
-    trigger = seg_info.get("trigger_s")
     quiet = 0 if trigger is None else min(lo, int(np.searchsorted(t_all, float(trigger))) - 2)
     if quiet >= 20:
         pre = estimate_offset_trend(t_all[:quiet], y_all[:quiet], linear=False)
@@ -387,25 +488,51 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
             else:
                 methods["fit"] = fitted
                 answer = fitted
+                detected = (float(t[0]), float(t[-1]))
+                for _ in range(EXTEND_ROUNDS):  # each refit extrapolates better: grow again
+                    new_lo, new_hi = _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted)
+                    if (new_lo, new_hi) == (lo, hi):
+                        break
+                    try:
+                        refit = fit_damped_sinusoids(t_all[new_lo:new_hi], y_all[new_lo:new_hi], fitted.poles,
+                                                     drift=drift, confidence=level, intervals=intervals,
+                                                     seed=seed)
+                    except (PoleprintError, np.linalg.LinAlgError, ValueError):
+                        break
+                    lo, hi = new_lo, new_hi
+                    methods["fit"] = answer = fitted = refit
+                if detected != (float(t_all[lo]), float(t_all[hi - 1])):
+                    seg_info["detected_start_s"], seg_info["detected_end_s"] = detected
+                    t, y = t_all[lo:hi], y_all[lo:hi]
+                    y0 = y - pre.evaluate(t)
+                    seg_info["start_s"], seg_info["end_s"] = float(t[0]), float(t[-1])
+                    seg_info["chosen_by"] += ", extended while the fitted model explains the samples"
+                    if method == "auto":  # the pencil as a cross-check on the same samples
+                        try:
+                            methods["pencil"] = run_pencil()
+                            order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
+                        except PoleprintError:
+                            pass
     fastest = max((p.natural_frequency_hz for p in answer.poles), default=0.0) if answer else 0.0
     if method in ("auto", "logdec", "halfpower"):
         if answer is None:
             from ._pencil import choose_decimation
 
             _, fastest = choose_decimation(y0, 1.0 / fs)
-        tc, yc, q_cross = _block_copy(t, y0, fastest)
         single = answer is None or len(answer.poles) == 1
         if method in ("auto", "logdec"):
             if single:
                 try:
                     from ._logdec import log_decrement
 
+                    # peaks need >= 20 samples per period for the 3-point interpolation
+                    tc, yc, q_cross = _block_copy(t, y0, fastest, 20.0, CROSS_CHECK_MAX_SAMPLES)
                     methods["logdec"] = log_decrement(tc, yc, confidence=level,
                                                       noise_std=None if q_cross > 1 else noise_pre)
-                except PoleprintError as exc:
+                except Exception as exc:  # a failing cross-check must not sink the answer
                     if method == "logdec":
                         raise
-                    methods["logdec"] = _not_used("logdec", exc)
+                    methods["logdec"] = _not_used("logdec", _why(exc))
             else:
                 methods["logdec"] = _not_used("logdec", "a single-mode method and the record holds several modes")
         if method in ("auto", "halfpower"):
@@ -413,13 +540,13 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                 from ._halfpower import half_power
 
                 freqs = None if answer is None else [p.natural_frequency_hz for p in answer.poles]
+                # the spectrum needs the record's length, not its sample rate
+                tc, yc, _ = _block_copy(t, y0, fastest, 6.0, HALFPOWER_MAX_SAMPLES)
                 methods["halfpower"] = half_power(tc, yc, confidence=level, frequencies_hz=freqs)
-            except PoleprintError as exc:
+            except Exception as exc:  # a failing cross-check must not sink the answer
                 if method == "halfpower":
                     raise
-                methods["halfpower"] = _not_used("halfpower", exc)
-            except ImportError:
-                methods["halfpower"] = _not_used("halfpower", "the half-power method is not available")
+                methods["halfpower"] = _not_used("halfpower", _why(exc))
         if answer is None:
             answer = methods[method]
     if not answer.poles:

@@ -17,15 +17,15 @@ __all__ = ["half_power"]
 
 #: Fine-grid spacing (fraction of the coarse half-power bandwidth) and span (in bandwidths
 #: each side of the peak) of the local transform.  Common practice, no source.
-GRID_PER_BANDWIDTH = 25
-GRID_HALF_SPAN = 4.0
+GRID_PER_BANDWIDTH = 20
+GRID_HALF_SPAN = 3.0
 #: Peaks lower than this fraction of the largest (|X|, i.e. −20 dB) are not reported
 #: when no frequencies are given.
 RELATIVE_HEIGHT = 0.1
 #: Raw spectral lines (record length × bandwidth) advised inside the half-power band.
 MIN_LINES = 5.0
 #: Bootstrap replicates, and the seed that makes the intervals reproducible.
-BOOTSTRAP_SAMPLES = 400
+BOOTSTRAP_SAMPLES = 300
 BOOTSTRAP_SEED = 20261202
 MIRROR_ITERATIONS = 6
 
@@ -53,7 +53,8 @@ def _half_power_points(spectra, omega, dt, iterations=None, nsamples=None):
     with ``nsamples`` the transform of the constant ``−mean(decay)`` left by removing
     the record's mean is added back as well.
 
-    Returns arrays (σ, ωd, ω1, ω2, residue R); NaN where a −3 dB point is missing.
+    Returns arrays (σ, ωd, ω1, ω2, residue R, correction) — the correction being what
+    was subtracted from each row; NaN where a −3 dB point is missing.
     """
     iterations = MIRROR_ITERATIONS if iterations is None else iterations
     rows = np.atleast_2d(spectra)
@@ -62,6 +63,7 @@ def _half_power_points(spectra, omega, dt, iterations=None, nsamples=None):
     step = omega[1] - omega[0]
     corrected = rows
     residue = np.zeros(nrow, dtype=complex)
+    correction = np.zeros_like(rows)
     r_ = np.arange(nrow)
     for it in range(iterations + 1):
         # work on the inverse power Q = 1/|X|², which is quadratic in ω − ωd for a
@@ -107,7 +109,8 @@ def _half_power_points(spectra, omega, dt, iterations=None, nsamples=None):
             mean_decay = 2.0 * np.real(residue * (1.0 - z ** nsamples) / (1.0 - z)) / nsamples
             kernel = (1.0 - np.exp(-1j * omega * nsamples * dt)) / (1.0 - np.exp(-1j * omega * dt))
             corrected = corrected + mean_decay[:, None] * kernel[None, :]
-    return sigma, omega_d, w1, w2, residue
+        correction = rows - corrected
+    return sigma, omega_d, w1, w2, residue, correction
 
 
 def _quadratic_crossing(inv, centre, target, omega, direction):
@@ -131,33 +134,41 @@ def _quadratic_crossing(inv, centre, target, omega, direction):
 
 
 def _local_transform(x, dt, omega):
-    """DTFT ``Σ x_n e^{−jω n Ts}`` of ``x`` on the grid ``omega`` (n from 0)."""
-    n = np.arange(x.size)
-    out = np.empty(omega.size, dtype=complex)
-    block = max(1, 4_000_000 // max(omega.size, 1))
-    out[:] = 0.0
-    for a in range(0, x.size, block):
-        nn = n[a:a + block]
-        out += np.exp(-1j * np.outer(omega, nn) * dt) @ x[a:a + block]
-    return out
+    """DTFT ``Σ x_n e^{−jω n Ts}`` of ``x`` on the uniform grid ``omega`` (n from 0).
 
-
-def _noise_factor(omega, dt, nsamples):
-    """Square-root factor of the covariance of the noise transform on ``omega``.
-
-    For white noise of unit variance, ``E[E(ωi) E(ωj)*] = Σ_n e^{−j(ωi−ωj)n Ts}``
-    (a Dirichlet kernel) [derived]; the factor ``V√Λ`` turns standard complex normal
-    vectors into draws of the noise transform.
+    Evaluated by the chirp z-transform (``scipy.signal.czt``) — a zoomed, zero-padded
+    FFT — with the points ``z_k = e^{j(ω0 + kΔω)Ts}``.
     """
-    diff = (omega[:, None] - omega[None, :]) * dt
+    from scipy.signal import czt
+
+    step = omega[1] - omega[0]
+    return czt(x, m=omega.size, w=np.exp(-1j * step * dt), a=np.exp(1j * omega[0] * dt))
+
+
+def _noise_basis(omega, dt, nsamples, margin=24):
+    """Map from the DFT of white noise to its transform on the local grid ``omega``.
+
+    The noise transform at any ω is the Dirichlet interpolation of the record's own
+    DFT lines ``W_m`` (independent, variance ``N s²``):
+    ``E(ω) = (1/N) Σ_m W_m D(ω − 2πm/(N Ts))`` with
+    ``D(θ) = Σ_n e^{−jθnTs} = e^{−jθ(N−1)Ts/2} sin(NθTs/2)/sin(θTs/2)`` [derived].
+    Only the lines within the grid ± ``margin`` lines are kept (the kernel falls as
+    1/distance, so the neglected variance is about 2/(π²·margin) ≈ 1 %); each grid
+    column is then rescaled so that its variance is exactly ``N s²``.
+
+    Returns the matrix ``M`` (lines × grid) such that ``E = W @ M`` for ``W`` the
+    standard complex normal lines scaled by ``s·√N``.
+    """
+    spacing = 2.0 * math.pi / (nsamples * dt)
+    m_lo = max(int(math.floor(omega[0] / spacing)) - margin, -nsamples // 2)
+    m_hi = min(int(math.ceil(omega[-1] / spacing)) + margin, nsamples // 2)
+    lines = np.arange(m_lo, m_hi + 1) * spacing
+    theta = (omega[None, :] - lines[:, None]) * dt
+    half = theta / 2.0
     with np.errstate(divide="ignore", invalid="ignore"):
-        kernel = np.where(np.abs(np.sin(diff / 2)) > 1e-12,
-                          np.sin(nsamples * diff / 2) / np.sin(diff / 2), float(nsamples))
-    cov = kernel * np.exp(-1j * diff * (nsamples - 1) / 2.0)
-    cov = 0.5 * (cov + cov.conj().T)
-    vals, vecs = np.linalg.eigh(cov)
-    keep = vals > vals.max() * 1e-10
-    return vecs[:, keep] * np.sqrt(vals[keep])[None, :]
+        ratio = np.where(np.abs(np.sin(half)) > 1e-12, np.sin(nsamples * half) / np.sin(half), float(nsamples))
+    basis = ratio * np.exp(-1j * half * (nsamples - 1)) / nsamples
+    return basis / np.sqrt(np.sum(np.abs(basis) ** 2, axis=0))[None, :]
 
 
 def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None) -> MethodEstimate:
@@ -174,7 +185,8 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         Confidence level of the intervals, as a probability.
     frequencies_hz : sequence of float, optional
         Evaluate the resonances nearest these frequencies (e.g. from another method);
-        by default every peak higher than 10 % (−20 dB) of the largest is evaluated.
+        by default every peak higher than 10 % (−20 dB) of the largest, standing out of
+        its surroundings by half its height and 8 noise levels, is evaluated.
 
     Returns
     -------
@@ -211,10 +223,13 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     order by the bootstrap below).
 
     *Intervals.*  Parametric bootstrap of the spectrum estimate: the noise standard
-    deviation ``s`` is estimated from the record
-    (:func:`identify.conditioning._trend.robust_noise_std`); replicate spectra are the
+    deviation ``s`` is the RMS residual of the record about the decay rebuilt from the
+    estimated poles and residues (``N − 4M − 1`` degrees of freedom for M modes; any
+    misfit makes it larger, hence the intervals conservative); replicate spectra are the
     observed local spectrum plus draws of the transform of white noise of std ``s``
-    (exact covariance on the grid, a Dirichlet kernel), the estimator is rerun on each,
+    (Dirichlet interpolation of independent DFT lines, ``_noise_basis``), the
+    half-power points are found again on each (keeping the point estimate's mirror and
+    offset correction),
     and the basic (reflected) bootstrap ``2ŝ − s*`` gives percentile intervals on
     Re s, Im s, fn and ζ.  Adding the noise on top of the noisy spectrum reproduces the
     estimator's spread and, to first order, its noise-floor bias, which the reflection
@@ -254,7 +269,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     x0 = x - np.mean(x)
     n = x0.size
     duration = n * dt
-    noise = robust_noise_std(x)
+    noise = robust_noise_std(x)  # for the peak search; the bootstrap uses the fit residual
     if not np.any(x0):
         raise IdentificationError("no resonance: the signal is constant")
 
@@ -269,14 +284,15 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     if peaks.size == 0:
         raise IdentificationError("no resonance: the spectrum has no peak above zero frequency")
     noise_mag = noise * math.sqrt(n)
-    significant = peaks[mag[peaks] > max(3.0 * noise_mag, 0.0)]
+    significant = peaks[mag[peaks] > 4.0 * noise_mag]  # pure noise: P(|X| > 4 s√n) = e⁻¹⁶ per line
     if requested is None:
         top = float(mag[significant].max()) if significant.size else 0.0
         chosen = [int(p) for p in significant if mag[p] >= RELATIVE_HEIGHT * top]
-        # a peak must stand out of its neighbour's skirt: prominence at least half its height
+        # a peak must stand out of its neighbour's skirt and of the noise: prominence at
+        # least half its height and 8 noise levels (noise makes bumps of a few on skirts)
         if chosen:
             prom = signal.peak_prominences(mag, np.array(chosen))[0]
-            chosen = [p for p, pr in zip(chosen, prom) if pr >= 0.5 * mag[p]]
+            chosen = [p for p, pr in zip(chosen, prom) if pr >= max(0.5 * mag[p], 8.0 * noise_mag)]
     else:
         pool = significant if significant.size else peaks
         chosen = sorted({int(pool[np.argmin(np.abs(freqs[pool] - f))]) for f in requested})
@@ -293,6 +309,8 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         warnings.append(
             f"truncated decay: the record ends with a standard deviation of {end_rms:.3g}, "
             f"{end_rms / max(noise, 1e-300):.1f}× the noise; the spectrum is smeared")
+    # pass 1: point estimates of every resonance
+    found = []
     for ipk in chosen:
         fpk = float(freqs[ipk])
         level_half = mag[ipk] / math.sqrt(2.0)
@@ -308,17 +326,38 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         npts = int(min(max(2 * GRID_HALF_SPAN * GRID_PER_BANDWIDTH, 50), 600))
         omega = 2.0 * math.pi * np.linspace(f_lo, f_hi, npts)
         local = _local_transform(x0, dt, omega)
-        sigma, omega_d, w1, w2, residue = _half_power_points(local[None, :], omega, dt, nsamples=n)
+        sigma, omega_d, w1, w2, residue, correction = _half_power_points(local[None, :], omega, dt,
+                                                                         nsamples=n)
         sigma, omega_d, w1, w2 = float(sigma[0]), float(omega_d[0]), float(w1[0]), float(w2[0])
         if not (math.isfinite(sigma) and math.isfinite(omega_d)):
             warnings.append(f"no half-power points: the peak near {fpk:.4g} Hz has no −3 dB points "
                             f"inside ±{GRID_HALF_SPAN:g} bandwidths (modes not separated?)")
             continue
-        factor = _noise_factor(omega, dt, n)
-        draws = (rng.standard_normal((BOOTSTRAP_SAMPLES, factor.shape[1]))
-                 + 1j * rng.standard_normal((BOOTSTRAP_SAMPLES, factor.shape[1]))) / math.sqrt(2.0)
-        replicas = local[None, :] + noise * (draws @ factor.T)
-        bs_sigma, bs_wd = _half_power_points(replicas, omega, dt, nsamples=n)[:2]
+        found.append((ipk, fpk, omega, local, sigma, omega_d, w1, w2, complex(residue[0]), correction[0]))
+    if not found:
+        raise IdentificationError("no resonance with half-power points: "
+                                  + "; ".join(w.split(": ", 1)[1] for w in warnings if w.startswith("no half")))
+
+    # noise for the bootstrap: the residual of the decay rebuilt from the estimates
+    # (x̂_n = Σ 2 Re(R zⁿ) about the record mean); a misfit only makes it larger
+    nn = np.arange(n)
+    model = np.zeros(n)
+    for (_, _, _, _, sigma, omega_d, _, _, res, _) in found:
+        z = np.exp(complex(-sigma, omega_d) * dt)
+        model += 2.0 * np.real(res * z ** nn)
+    resid = x0 - (model - np.mean(model))
+    noise_resid = float(np.sqrt(np.sum(resid ** 2) / max(n - 4 * len(found) - 1, 1)))
+    noise = noise_resid
+
+    # pass 2: intervals
+    for (ipk, fpk, omega, local, sigma, omega_d, w1, w2, res, correction) in found:
+        basis = _noise_basis(omega, dt, n)
+        draws = (rng.standard_normal((BOOTSTRAP_SAMPLES, basis.shape[0]))
+                 + 1j * rng.standard_normal((BOOTSTRAP_SAMPLES, basis.shape[0]))) * math.sqrt(n / 2.0)
+        # replicates keep the point estimate's mirror/offset correction (it moves by a
+        # negligible second-order amount between replicates), so one pass suffices
+        replicas = (local - correction)[None, :] + noise * (draws @ basis)
+        bs_sigma, bs_wd = _half_power_points(replicas, omega, dt, iterations=0)[:2]
         s_hat = complex(-sigma, omega_d)
         boot = -bs_sigma + 1j * bs_wd
         boot = boot[np.isfinite(boot)]
@@ -329,10 +368,10 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
                             f"noise in most bootstrap replicates")
             from ..poles import Pole
 
-            pole = Pole(-sigma, omega_d, 2.0 * abs(residue[0]))
+            pole = Pole(-sigma, omega_d, 2.0 * abs(res))
         else:
             pole = pole_with_sample_intervals(s_hat, 2.0 * s_hat - boot, level,
-                                              amplitude=2.0 * abs(residue[0]),
+                                              amplitude=2.0 * abs(res),
                                               method="parametric bootstrap")
             lost = 1.0 - boot.size / BOOTSTRAP_SAMPLES
             if lost > 0.05:
@@ -351,9 +390,6 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         poles.append(pole)
         per_pole.append({"peak_hz": fpk, "f1_hz": f1, "f2_hz": f2, "lines_in_band": lines,
                          "bootstrap_used": int(boot.size)})
-    if not poles:
-        raise IdentificationError("no resonance with half-power points: "
-                                  + "; ".join(w.split(": ", 1)[1] for w in warnings if w.startswith("no half")))
     order = np.argsort([p.natural_frequency_hz for p in poles])
     details = {"resonances": [per_pole[i] for i in order], "noise_std": noise, "nfft": nfft,
                "bootstrap_samples": BOOTSTRAP_SAMPLES, "bootstrap_seed": BOOTSTRAP_SEED}

@@ -246,8 +246,9 @@ def log_decrement(time_s, values, *, confidence: float = 0.95, noise_std=None) -
 
     It is a single-mode method: a lack-of-fit ratio (residual variance of the
     extremum values over the ~s² expected from the noise) together with structured
-    residuals (runs test on their signs, or a significant curvature of ln-amplitude)
-    gives the warning ``"several modes: ..."``.
+    residuals (runs test on their signs, or a significant curvature of ln-amplitude),
+    a lack of fit twice as large on its own, or irregular half periods give the
+    warning ``"several modes: ..."``.
 
     References
     ----------
@@ -436,7 +437,8 @@ def log_decrement(time_s, values, *, confidence: float = 0.95, noise_std=None) -
             f_stat = (rss_a - rss_q) / (rss_q / dof_q)
             curvature_p = float(stats.f.sf(f_stat, 1, dof_q))
     structured = min(runs_p, curvature_p) < SEVERAL_MODES_P
-    if (noise_ratio > LACK_OF_FIT_RATIO and structured) or time_ratio > LACK_OF_FIT_RATIO ** 2:
+    if ((noise_ratio > LACK_OF_FIT_RATIO and structured) or noise_ratio > 2.0 * LACK_OF_FIT_RATIO
+            or time_ratio > LACK_OF_FIT_RATIO ** 2):
         warnings.append(
             f"several modes: ln-amplitude of the extrema is not a straight line (residual "
             f"variance {noise_ratio:.1f}× the noise, runs p={runs_p:.2g}, curvature "

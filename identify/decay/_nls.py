@@ -24,7 +24,7 @@ __all__ = ["fit_damped_sinusoids", "model_basis", "model_values", "model_jacobia
 #: records longer than this are fitted on an anti-alias-filtered, decimated copy when
 #: they are heavily oversampled (speed; see docs/decay.md).  Common practice, no source.
 MAX_FIT_SAMPLES = 50_000
-MIN_FIT_SAMPLES_PER_PERIOD = 12
+MIN_FIT_SAMPLES_PER_PERIOD = 8
 
 
 # -- the model and its Jacobian (shared with the pencil's linearised intervals) -------
@@ -165,8 +165,13 @@ def _lmfit_once(lmfit, tau, y, seeds, drift, nyquist):
         sg, om, cc, dd, b0, b1 = _unpack(v, m, drift)
         return model_values(tau, sg, om, cc, dd, b0, b1) - ys
 
-    result = lmfit.minimize(residual, params, method="leastsq", nan_policy="raise",
-                            xtol=1e-10, ftol=1e-12, max_nfev=400 * (4 * m + 2))
+    def jacobian(p):  # analytic, in lmfit's variable order (lmfit applies the bounds' chain rule)
+        v = p.valuesdict()
+        sg, om, cc, dd, _, _ = _unpack(v, m, drift)
+        return model_jacobian(tau, sg, om, cc, dd, drift)
+
+    result = lmfit.minimize(residual, params, method="leastsq", nan_policy="raise", Dfun=jacobian,
+                            xtol=1e-10, ftol=1e-12, max_nfev=200 * (4 * m + 2))
     sg, om, cc, dd, b0, b1 = _unpack(result.params.valuesdict(), m, drift)
     return sg, om, cc * scale, dd * scale, b0 * scale, b1 * scale, bool(result.success), int(result.nfev)
 
@@ -182,7 +187,7 @@ def _decimate_for_fit(time_s, values, seeds):
     fastest_hz = max(abs(s) for s in seeds) / (2 * math.pi)
     # about MAX_FIT_SAMPLES samples, but never fewer than MIN_FIT_SAMPLES_PER_PERIOD samples
     # per period of the fastest mode (the block mean keeps the poles exactly; it keeps a
-    # fraction sinc²(π/12) ≈ 1 − (π/12)²/3 ≈ 0.98 of a mode's power at 12 samples per
+    # fraction sinc²(π/8) ≈ 1 − (π/8)²/3 ≈ 0.95 of a mode's power at 8 samples per
     # period while the noise variance falls by the factor exactly, derived)
     factor = min(int(1.0 / (ts * MIN_FIT_SAMPLES_PER_PERIOD * fastest_hz)), -(-n // MAX_FIT_SAMPLES))
     if factor < 2:
@@ -233,7 +238,7 @@ def fit_damped_sinusoids(time_s, values, seeds, *, drift=False, confidence=0.95,
     each mode goes to :func:`identify.poles.pole_with_delta_intervals`.
 
     Records longer than 50,000 samples are fitted on a block-mean decimated copy of about
-    50,000 samples (never fewer than 12 samples per period of the fastest mode).  The
+    50,000 samples (never fewer than 8 samples per period of the fastest mode).  The
     block mean is an FIR anti-alias filter that preserves each pole exactly; amplitudes
     are corrected for its gain.  ``details`` says so (``decimation_factor``,
     ``samples_fitted``, ``note``).

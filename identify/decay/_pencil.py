@@ -233,7 +233,9 @@ def matrix_pencil(time_s, values, *, order="auto", confidence=0.95, max_modes=10
     big_l = int(min(n_use // 3, MAX_PENCIL_PARAMETER))
     big_l = max(big_l, 2)
     hankel = np.lib.stride_tricks.sliding_window_view(ys, big_l + 1)
-    _, sv, vh = np.linalg.svd(hankel, full_matrices=False)
+    # the right singular vectors and values only: QR first, then the SVD of the small R
+    r_factor = np.linalg.qr(np.ascontiguousarray(hankel), mode="r")
+    _, sv, vh = np.linalg.svd(r_factor)
     max_rank = min(2 * max_modes + 4, big_l - 1)
     edge = _noise_edge(sv, hankel.shape[0], hankel.shape[1], max_rank)
     floor = max(edge, 1e-10 * sv[0])

@@ -437,12 +437,26 @@ class TrendResult:
     def origin(self) -> datetime:
         return datetime.fromisoformat(self.origin_time)
 
+    @property
+    def principal_modes(self) -> tuple:
+        """Modes found in at least half of the tests (and in 3 or more).
+
+        Sporadic modes (a job's spurious poles, or a mode excited only sometimes) stay in
+        :attr:`modes` and in the events; tables and plots show these principal ones
+        first.  When no mode qualifies, every mode with a trend line is returned.
+        """
+        need = max(3, math.ceil(self.n_tests / 2))
+        chosen = tuple(m for m in self.modes if len(m.test_ids) >= need)
+        return chosen or tuple(m for m in self.modes if m.damping_fit is not None or m.decay_rate_fit is not None)
+
     def to_dict(self) -> dict:
         from .._jsonable import jsonable
 
+        principal = {m.mode for m in self.principal_modes}
         return {"rig": self.rig, "origin_time": self.origin_time,
                 "threshold_damping": self.threshold_damping, "confidence": self.confidence,
-                "n_tests": self.n_tests, "modes": [m.to_dict() for m in self.modes],
+                "n_tests": self.n_tests,
+                "modes": [{**m.to_dict(), "principal": m.mode in principal} for m in self.modes],
                 "events": list(self.events), "cautions": list(self.cautions),
                 "warnings": list(self.warnings), "settings": jsonable(self.settings)}
 

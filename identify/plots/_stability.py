@@ -58,6 +58,9 @@ def plot_order_stability(order_scan, *, selected=None, max_frequency_hz=None, ti
     ax.set_xlabel("natural frequency (Hz)")
     ax.set_ylabel("model order")
     ax.set_title(title or "Pole stability across model orders")
+    if order.size:
+        lo, hi = float(order.min()), float(order.max())
+        ax.set_ylim(lo - 0.5, hi + 0.35 * (hi - lo) + 1.5)  # headroom for the legend
     if freq.size or selected:
-        ax.legend(loc="upper right")
+        ax.legend(loc="upper right", ncols=3)
     return fig

@@ -33,28 +33,42 @@ def _flat(obj):
     if obj is None:
         return {}
     data = obj.to_dict() if hasattr(obj, "to_dict") else dict(obj) if isinstance(obj, dict) else vars(obj)
+    return {key: value for key, (value, _) in _sourced(data).items()}
+
+
+def _sourced(data) -> dict:
+    """``{name: (value, source)}``: source ``""`` for a plain or measured value, ``"model"``
+    when only the model's value is given."""
     out = {}
     for key, value in data.items():
         if hasattr(value, "to_dict"):
             value = value.to_dict()
         if isinstance(value, dict):
-            # {"value": x} or {"measured": x, "model": y}: take the measured, else value
+            # {"value": x} or {"measured": x, "model": y}: take the measured, else the model
             for inner in ("measured", "value", "model"):
                 if _finite(value.get(inner)) is not None:
-                    out[key] = _finite(value[inner])
+                    out[key] = (_finite(value[inner]), "model" if inner == "model" else "")
                     break
         elif _finite(value) is not None:
-            out[key] = _finite(value)
+            out[key] = (_finite(value), "")
     return out
 
 
 def step_figures(metrics) -> dict:
-    """The step figures found in ``metrics``: ``{name: (words, value, unit)}``."""
-    flat = _flat(metrics)
+    """The step figures found in ``metrics``: ``{name: (words, value, unit)}``.
+
+    The measured figure is used; when only the model's is given, the words say
+    "(model)".
+    """
+    if metrics is None:
+        return {}
+    data = metrics.to_dict() if hasattr(metrics, "to_dict") else dict(metrics)
+    flat = _sourced(data)
     found = {}
     for key, words, unit in _FIGURES:
         if key in flat:
-            found[key] = (words, flat[key], unit)
+            value, source = flat[key]
+            found[key] = (words + (" (model)" if source else ""), value, unit)
     return found
 
 

@@ -26,7 +26,8 @@ def plot_damping_trend(trend, *, modes=None, width_in: float = 7.0, height_in: f
     trend : identify.history.TrendResult
         Result of :func:`identify.history.analyse_trend`.
     modes : sequence of str, optional
-        Mode labels to draw (default: every oscillatory mode).
+        Mode labels to draw (default: the oscillatory modes among
+        ``trend.principal_modes``, those found in at least half of the tests).
     width_in, height_in : float
         Figure width and height per panel, in inches.
 
@@ -35,9 +36,11 @@ def plot_damping_trend(trend, *, modes=None, width_in: float = 7.0, height_in: f
     matplotlib.figure.Figure
         Drawn on an Agg canvas; nothing is shown.
     """
+    import matplotlib.dates as mdates
     import numpy as np
 
-    chosen = [m for m in trend.modes if m.oscillatory and (modes is None or m.mode in modes)]
+    pool = trend.modes if modes is not None else trend.principal_modes
+    chosen = [m for m in pool if m.oscillatory and (modes is None or m.mode in modes)]
     fig, axes = new_figure(max(len(chosen), 1), 1, height_in=height_in, width_in=width_in)
     pct = f"{trend.confidence * 100:g} %"
     if not chosen:
@@ -83,6 +86,9 @@ def plot_damping_trend(trend, *, modes=None, width_in: float = 7.0, height_in: f
             mid = dates[i - 1] + (dates[i] - dates[i - 1]) / 2
             ax.axvline(mid, color=PALETTE["context"], linestyle="--",
                        label=f"step change {step['size']:+.3g} (p = {step['p_value']:.3g})")
+        locator = mdates.AutoDateLocator(minticks=3, maxticks=8)
+        ax.xaxis.set_major_locator(locator)
+        ax.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
         ax.set_ylabel("damping ratio ζ (–)")
         ax.set_xlabel("test date (UTC)")
         name = f"{trend.rig}: " if trend.rig else ""

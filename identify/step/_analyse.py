@@ -98,7 +98,7 @@ def _choose(fits):
         white = not (math.isfinite(f.ljung_box_p) and f.ljung_box_p < LJUNG_BOX_ALPHA)
         return (not white, f.parameter_count, f.bic)
     chosen = min(tied, key=whiteness_then_size)
-    rest = sorted([f for f in fits if f is not chosen], key=lambda f: (f.degenerate is not None, f.bic))
+    rest = sorted([f for f in fits if f is not chosen], key=lambda f: f.bic)
     return chosen, rest
 
 
@@ -293,7 +293,7 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     (1978); IEEE Std 181 (transition reference levels).
     """
     from .._response import ModelResponse
-    from ..conditioning._stepdetect import STEADY_LIMIT, detect_step, noise_std, steady_statistic
+    from ..conditioning._stepdetect import STEADY_LIMIT, detect_step, noise_std, settled_tail, steady_statistic
     from ._figures import figures_table, measure_figures
     from ._fit import FitSetup, fit_structure
     from ._result import StepResult
@@ -428,9 +428,15 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
         model_final = v["offset"] + v["gain"] * step.size
         remaining = 1.0 - float(step_response(chosen.structure, shape, [t[-1] - step.time_s - v["dead_time_s"]])[0])
         settled = abs(remaining) <= band
+        tail_settled, drift = settled_tail(t[post], y[post], change=v["gain"] * step.size, band=band, sigma=sigma)
         if not settled:
             warnings.append(f"not settled at the end: the model is still {100 * abs(remaining):.1f} % of the change "
                             f"from its final value at the last sample; final value extrapolated from the model")
+        elif not tail_settled:
+            settled = False
+            warnings.append(f"not settled at the end: the output still drifts {drift:.3g} over the last fifth of "
+                            f"the record (more than the {100 * band:g} % band and the noise); final value "
+                            f"extrapolated from the model")
     measured_final = yf_tail if (settled or integrating) else model_final
     if not settled and not integrating:
         notes["final_value"] = "extrapolated from the model: the record ends before the response settles"

@@ -21,8 +21,8 @@ import math
 
 import numpy as np
 
-__all__ = ["STRUCTURES", "SHAPE_PARAMETERS", "state_space", "step_response", "unit_response", "simulate",
-           "poles_of", "steady_gain_factor"]
+__all__ = ["STRUCTURES", "SHAPE_PARAMETERS", "step_response", "input_increments", "unit_response",
+           "simulate", "poles_of"]
 
 STRUCTURES = ("first-order", "two-lag", "underdamped", "integrating")
 
@@ -33,24 +33,6 @@ SHAPE_PARAMETERS = {
     "underdamped": ("natural_frequency_rad_per_s", "damping_ratio"),
     "integrating": (),
 }
-
-
-def state_space(structure: str, shape) -> tuple:
-    """Return ``(A, B, C)`` of the unit-gain part ``G(s)`` of a structure."""
-    if structure == "first-order":
-        (tau,) = shape
-        return np.array([[-1.0 / tau]]), np.array([1.0 / tau]), np.array([1.0])
-    if structure == "two-lag":
-        t1, t2 = shape
-        a = np.array([[-1.0 / t1, 0.0], [1.0 / t2, -1.0 / t2]])
-        return a, np.array([1.0 / t1, 0.0]), np.array([0.0, 1.0])
-    if structure == "underdamped":
-        wn, zeta = shape
-        a = np.array([[0.0, 1.0], [-wn * wn, -2.0 * zeta * wn]])
-        return a, np.array([0.0, wn * wn]), np.array([1.0, 0.0])
-    if structure == "integrating":
-        return np.array([[0.0]]), np.array([1.0]), np.array([1.0])
-    raise ValueError(f"unknown structure {structure!r}")
 
 
 def step_response(structure: str, shape, time_s) -> np.ndarray:
@@ -136,11 +118,6 @@ def simulate(structure: str, values: dict, u_dev, sample_time_s: float) -> np.nd
     shape = tuple(values[name] for name in SHAPE_PARAMETERS[structure])
     y = unit_response(structure, shape, values["dead_time_s"], u_dev, sample_time_s)
     return values["offset"] + values["gain"] * y
-
-
-def steady_gain_factor(structure: str) -> float | None:
-    """1 for self-regulating structures; ``None`` for the integrator (no final value)."""
-    return None if structure == "integrating" else 1.0
 
 
 def poles_of(structure: str, values: dict) -> list:

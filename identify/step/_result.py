@@ -3,7 +3,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-__all__ = ["ProcessModel", "StepResult"]
+__all__ = ["ProcessModel", "StepResult", "CONTRACT_VERSION", "RESULT_CAUTION"]
+
+#: version of the step job's JSON contract (docs/json-contract.md)
+CONTRACT_VERSION = 1
+
+RESULT_CAUTION = ("estimates from one step test, not clearances; controller gains are a starting point "
+                  "to review before use on a live plant; step tests on running plants need the site's "
+                  "approval; defer to the site's procedures, local codes and licensed engineers")
 
 
 @dataclass(frozen=True)
@@ -120,7 +127,8 @@ class StepResult:
         from .._jsonable import jsonable
 
         return jsonable({
-            "source": self.source, "sha256": self.sha256, "job": "step",
+            "job": "step", "contract_version": CONTRACT_VERSION,
+            "source": self.source, "sha256": self.sha256,
             "model": self.model.to_dict(),
             "runner_up": None if self.runner_up is None else self.runner_up.to_dict(),
             "candidates": list(self.candidates),
@@ -133,6 +141,7 @@ class StepResult:
             "settings": dict(self.settings),
             "step": self.step.to_dict(),
             "response": None if self.response is None else self.response.to_dict(),
+            "caution": RESULT_CAUTION,
         })
 
     def summary(self) -> str:

@@ -55,7 +55,8 @@ def render(result) -> str:
         parts += [f"tau{i} {_f(x)} s" for i, x in enumerate(r.time_constants_s, 1)]
         if r.natural_frequency_hz is not None:
             parts += [f"fn {_f(r.natural_frequency_hz)} Hz", f"zeta {_f(r.damping_ratio)}"]
-        lines.append(f"runner-up: {r.structure} ({', '.join(parts)})")
+        note = next((c["degenerate"] for c in result.candidates if c["structure"] == r.structure), None)
+        lines.append(f"runner-up: {r.structure} ({', '.join(parts)})" + (f"; {note}" if note else ""))
     lines.append("")
     rows = [(c["structure"], _f(c["bic"], 6), _f(c["aicc"], 6), _f(c["fit_percent"], 4),
              _f(c["ljung_box_p"], 2), c["degenerate"] or "") for c in result.candidates]
