@@ -292,3 +292,33 @@ def test_ljung_box_matches_statsmodels():
     for x in (rng.normal(size=300), np.cumsum(rng.normal(size=300)), rng.normal(size=40)):
         ref = float(acorr_ljungbox(x - x.mean(), lags=[min(10, x.size // 5)], return_df=True)["lb_pvalue"].iloc[-1])
         assert ljung_box_p(x) == pytest.approx(ref, rel=1e-6, abs=1e-12)
+
+
+def test_warning_degenerate_structure_when_forced():
+    t, u, y = _fopdt(seed=10)
+    r = analyse_step(Record.from_arrays(t, u=u, y=y), output="y", input="u", model="underdamped")
+    assert any(w.startswith("degenerate structure:") for w in r.warnings)
+    assert r.tuning.controller == "none"  # SIMC assumes real lags
+
+
+def test_ringing_at_the_end_is_not_settled():
+    # an underdamped response cut while it still rings beyond the band (derived: envelope
+    # exp(-zeta wn t) = exp(-0.1 * 1 * 15) = 0.22 at the end)
+    n, ts = 200, 0.1
+    u = np.where(np.arange(n) >= 50, 1.0, 0.0)
+    y = unit_response("underdamped", (1.0, 0.1), 0.0, u, ts) + np.random.default_rng(1).normal(0, 0.005, n)
+    r = analyse_step(Record.from_arrays(np.arange(n) * ts, u=u, y=y), output="y", input="u", model="underdamped")
+    assert any(w.startswith("not settled at the end:") for w in r.warnings)
+
+
+def test_zero_dead_time_gets_a_profile_interval():
+    # at theta = 0 the delta interval would collapse on the bound; the profile-likelihood
+    # interval must start at 0 and reach above it
+    n, ts = 200, 0.1
+    u = np.where(np.arange(n) >= 30, 1.0, 0.0)
+    y = 2.0 * unit_response("first-order", (1.5,), 0.0, u, ts) + np.random.default_rng(0).normal(0, 0.02, n)
+    r = analyse_step(Record.from_arrays(np.arange(n) * ts, u=u, y=y), output="y", input="u", model="first-order")
+    lo, hi = r.model.ci["dead_time_s"]
+    assert lo == 0.0 and 0.002 < hi < 2 * ts
+    assert r.settings["dead_time_interval"].startswith("profile")
+    assert r.tuning.closed_loop_time_constant_s == pytest.approx(ts)  # one sample when theta ~ 0

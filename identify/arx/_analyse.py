@@ -296,19 +296,54 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
         return dict(q=q, y=y, u=u, yc=yc, uc=uc, y_mean=y_mean, u_mean=u_mean, n_est=n_est,
                     n_hold=n_hold, ts=ts, t_start=t_start, table=table, ls=ls, na=na, nb=nb, nk=nk)
 
+    def iv_search(yc, uc, n_est, ts, ls):
+        """Orders and/or delay by the criterion on IV simulation errors (see search_orders_iv).
+
+        Orders auto: ``na = nb = 1..max_order`` at the least-squares delay; then, with the
+        delay auto too, every delay ``0..max_delay`` at the best order; then the orders
+        again at a changed delay.  Orders given: every delay at those orders.
+        """
+        from ._iv import search_orders_iv
+        from ._regressors import max_lag
+
+        top_n = max_order if fixed_orders is None else max(fixed_orders)
+        start = max_lag(top_n, top_n, max_delay if fixed_delay is None else fixed_delay)
+        all_delays = range(0, max_delay + 1) if fixed_delay is None else [fixed_delay]
+        rows = {}
+
+        def run(cands):
+            got = search_orders_iv(yc, uc, cands, criterion, ts, start=start, stop=n_est)
+            for r in got:
+                rows[(r["na"], r["nb"], r["delay_samples"])] = r
+            best = min(rows.values(), key=lambda r: (r[criterion], r["parameters"])) if rows else None
+            return best
+
+        nk = ls.delay_samples
+        if fixed_orders is None:
+            best = run([(n, n, nk) for n in range(1, max_order + 1)])
+            if best is not None and fixed_delay is None:
+                best = run([(best["na"], best["nb"], k) for k in all_delays])
+                if best["delay_samples"] != nk:
+                    best = run([(n, n, best["delay_samples"]) for n in range(1, max_order + 1)])
+        else:
+            best = run([(fixed_orders[0], fixed_orders[1], k) for k in all_delays])
+        if best is None:  # no candidate could be refined: keep the least-squares choice
+            return None, ls
+        table = sorted(rows.values(), key=lambda r: (r[criterion], r["parameters"]))
+        for i, r in enumerate(table):
+            r["selected"] = i == 0
+        new_ls = fit_arx(yc[:n_est], uc[:n_est], best["na"], best["nb"], best["delay_samples"], ts, level,
+                         constant=True)
+        return tuple(table), new_ls
+
     def refine_stage(st):
-        """IV order search (refine="iv", orders="auto"), the IV fit and the final model."""
+        """IV order/delay search (refine="iv" with orders or delay "auto"), the IV fit, the final model."""
         yc, uc, n_est, ts, nk = st["yc"], st["uc"], st["n_est"], st["ts"], st["nk"]
         ls, table = st["ls"], st["table"]
-        if refine == "iv" and fixed_orders is None:
-            from ._iv import search_orders_iv
-
-            delays = [nk] if fixed_delay is not None else [k for k in (nk - 1, nk, nk + 1) if 0 <= k <= max_delay]
-            iv_rows = search_orders_iv(yc, uc, range(1, max_order + 1), delays, criterion, ts, stop=n_est)
-            if iv_rows:
-                best = iv_rows[0]
-                table, nk = tuple(iv_rows), best["delay_samples"]
-                ls = fit_arx(yc[:n_est], uc[:n_est], best["na"], best["nb"], nk, ts, level, constant=True)
+        if refine == "iv" and (fixed_orders is None or fixed_delay is None):
+            iv_table, ls = iv_search(yc, uc, n_est, ts, ls)
+            table = table if iv_table is None else iv_table
+            nk = ls.delay_samples
         iv_fit = None
         if has_input:
             from ._iv import refine_iv

@@ -165,17 +165,30 @@ def refine_iv(fit, y, u, *, iterations: int = 20, tolerance: float = 1e-9, stop:
                         na, nb, nk, fit.sample_time_s, fit.confidence, const, "instrumental variables")
 
 
-def search_orders_iv(y, u, orders, delays, criterion: str, sample_time_s: float, *,
-                     stop: int | None = None):
-    """Rank ``na = nb = n`` by the criterion on each IV model's simulation error.
+def search_orders_iv(y, u, candidates, criterion: str, sample_time_s: float, *,
+                     start: int | None = None, stop: int | None = None):
+    """Rank candidate ``(na, nb, nk)`` by the criterion on each IV model's simulation error.
 
     Least-squares criteria over-estimate the order under output noise (the extra poles
-    model the coloured equation error); an instrumental-variable model is judged
-    instead by its simulation error ``y - ŷ`` (initial state fitted, see
-    :func:`simulate_with_estimated_state`) over a common sample, with the same
-    AIC/BIC/FPE formulas and ``d = na + nb``, for every delay in ``delays`` (an int or
-    a sequence; least squares can misplace the delay too).  Each candidate gets at most
-    ``SEARCH_ITERATIONS`` instrument updates; the chosen order is then refined fully.
+    model the coloured equation error) and can misplace the delay; an
+    instrumental-variable model is judged instead by its simulation error ``y - ŷ``
+    (initial state fitted, see :func:`simulate_with_estimated_state`) over a common
+    sample, with the same AIC/BIC/FPE formulas and ``d = na + nb``.  Each candidate gets
+    at most ``SEARCH_ITERATIONS`` instrument updates; the chosen one is refined fully
+    afterwards.
+
+    Parameters
+    ----------
+    y, u : numpy.ndarray
+        Centred output and input.
+    candidates : iterable of (na, nb, nk)
+    criterion : {"aic", "aicc", "bic", "fpe"}
+    sample_time_s : float
+    start : int, optional
+        First sample of the common sample (default: the largest lag of the candidates);
+        give the same value to compare rows of separate calls.
+    stop : int, optional
+        One past the last sample of the estimation part.
 
     Returns
     -------
@@ -191,28 +204,32 @@ def search_orders_iv(y, u, orders, delays, criterion: str, sample_time_s: float,
     y = np.asarray(y, dtype=float)
     u = np.asarray(u, dtype=float)
     last = y.size if stop is None else int(stop)
-    orders = sorted({int(n) for n in orders if int(n) > 0})
-    delays = sorted({int(k) for k in np.atleast_1d(delays) if int(k) >= 0})
-    start = max(max_lag(n, n, k) for n in orders for k in delays)
+    candidates = sorted({(int(na), int(nb), int(nk)) for na, nb, nk in candidates
+                         if int(na) >= 0 and int(nb) >= 1 and int(nk) >= 0})
+    if not candidates:
+        return []
+    if start is None:
+        start = max(max_lag(na, nb, nk) for na, nb, nk in candidates)
     rows = []
-    for delay in delays:
-        for n in orders:
-            try:
-                ls = fit_arx(y[:last], u[:last], n, n, delay, sample_time_s, start=start)
-                iv = refine_iv(ls, y, u, stop=last, iterations=SEARCH_ITERATIONS)
-            except IdentificationError:
-                continue
-            with np.errstate(over="ignore", invalid="ignore"):
-                sim = simulate_with_estimated_state(iv.a, iv.b, delay, u[:last], y[:last], start, last)
-            err = (y[:last] - sim)[start:]
-            with np.errstate(over="ignore", invalid="ignore"):
-                loss = float(np.mean(err * err))
-            if not np.isfinite(loss):  # a diverging simulation: not a candidate
-                continue
-            row = {"na": n, "nb": n, "delay_samples": int(delay), "parameters": 2 * n, "loss": loss,
-                   "estimator": "instrumental variables"}
-            row.update(information_criteria(loss, err.size, 2 * n))
-            rows.append(row)
+    for na, nb, nk in candidates:
+        try:
+            ls = fit_arx(y[:last], u[:last], na, nb, nk, sample_time_s, start=start, constant=True)
+            iv = refine_iv(ls, y, u, stop=last, iterations=SEARCH_ITERATIONS)
+        except IdentificationError:
+            continue
+        with np.errstate(over="ignore", invalid="ignore"):
+            sim = simulate_with_estimated_state(iv.a, iv.b, nk, u[:last], y[:last], start, last,
+                                                constant=iv.constant or 0.0)
+        err = (y[:last] - sim)[start:]
+        with np.errstate(over="ignore", invalid="ignore"):
+            loss = float(np.mean(err * err))
+        if not np.isfinite(loss):  # a diverging simulation: not a candidate
+            continue
+        d = na + nb
+        row = {"na": na, "nb": nb, "delay_samples": nk, "parameters": d, "loss": loss,
+               "estimator": "instrumental variables"}
+        row.update(information_criteria(loss, err.size, d))
+        rows.append(row)
     rows.sort(key=lambda r: (r[criterion], r["parameters"]))
     for i, r in enumerate(rows):
         r["selected"] = i == 0

@@ -97,7 +97,10 @@ def _mad_std(x):
 
 
 def _smoothed_envelope(y, dt):
-    """Hilbert envelope of ``y`` averaged over one period of its dominant frequency."""
+    """Hilbert envelope of ``y`` averaged over one period of its dominant frequency.
+
+    Returns the smoothed envelope and the averaging width in samples.
+    """
     from scipy.signal import hilbert
 
     env = np.abs(hilbert(y))
@@ -113,7 +116,7 @@ def _smoothed_envelope(y, dt):
         kernel = np.ones(width) / width
         padded = np.concatenate([np.full(width, env[0]), env, np.full(width, env[-1])])
         env = np.convolve(padded, kernel, mode="same")[width:-width]
-    return env
+    return env, width
 
 
 def detect_decay_segment(time_s, values, *, start_s=None, end_s=None, noise_std=None) -> DecaySegment:
@@ -157,7 +160,7 @@ def detect_decay_segment(time_s, values, *, start_s=None, end_s=None, noise_std=
        from a held displacement quadratically, both within a sample or two at 30 dB).
     3. *Ring-down start.*  After the trigger, the Hilbert envelope (about the median
        level after the trigger), averaged over one period of the dominant frequency,
-       peaks; the excitation is taken to have ended where the envelope first falls
+       peaks (without a trigger, the first period is skipped: edge artefact); the excitation is taken to have ended where the envelope first falls
        below ``EXCITATION_DROP`` of that peak — for a hammer just after the impact, for
        a shaker stop where the steady envelope starts to decay.
     4. *End.*  Where the smoothed envelope first falls to ``END_FACTOR`` noise std
@@ -270,8 +273,11 @@ def _detect(t, x, dt, given_noise):
 
     y = x[first:]
     center = float(np.median(y))
-    env = _smoothed_envelope(y - center, dt)
-    p = int(np.argmax(env))
+    env, width = _smoothed_envelope(y - center, dt)
+    # without a trigger the record starts mid-motion, where the Hilbert envelope has an
+    # edge artefact: look for the peak from one smoothing width on
+    skip = 0 if onset is not None else min(width, max(env.size - 2, 0))
+    p = skip + int(np.argmax(env[skip:]))
     if env[p] <= END_FACTOR * 1.25 * s:
         raise IdentificationError(
             f"no response above the noise: the envelope peaks at {env[p] / max(s, 1e-300):.1f} "

@@ -31,6 +31,7 @@ EXTEND_RMS = 2.0            # segment extension: block RMS of the residual <= 2 
 EXTEND_PEAK = 5.0           # ... and no sample beyond 5 noise std in the block
 EXTEND_EDGE = 3.0           # in the first failing block, kept up to 2 samples in a row beyond 3 std
 EXTEND_ROUNDS = 4           # grow, refit, grow again (the refit extrapolates better)
+SECOND_LOOK_RATIO = 1.1     # a fit from the trigger is kept if its residual RMS is within 10 %
 #: cross-check methods get a block-averaged copy of records longer than this
 CROSS_CHECK_MAX_SAMPLES = 50_000
 HALFPOWER_MAX_SAMPLES = 20_000
@@ -157,6 +158,72 @@ def _block_copy(t, y, fastest_hz, min_samples_per_period, max_samples):
         return t, y, 1
     td, yd = block_decimate(t, y, q)
     return td, yd, q
+
+
+def _mode_energies(fitted, t):
+    """Energy Σ (mode's term)² over ``t`` of each fitted mode."""
+    from ._nls import model_values
+
+    d = fitted.details
+    tau = t - d["t_ref_s"]
+    return [float(np.sum(model_values(tau, [-x["real"]], [x["imag"]], [x["c"]], [x["d"]]) ** 2))
+            for x in d["terms"]]
+
+
+def _prune(fitted, t, y, fit, drift, level, intervals, seed):
+    """Drop fitted modes whose energy over the segment is below ``MIN_MODE_ENERGY`` noise
+    variances (the fit moved a pencil seed onto nothing), then refit the rest."""
+    from ._pencil import MIN_MODE_ENERGY
+
+    d = fitted.details
+    if len(d.get("terms", ())) < 2:
+        return fitted
+    noise_var = d["residual_std"] ** 2 * d["decimation_factor"]  # per raw sample
+    energies = _mode_energies(fitted, t)
+    terms = d["terms"]
+    keep = [complex(x["real"], x["imag"]) for x, e in zip(terms, energies) if e >= MIN_MODE_ENERGY * noise_var]
+    if not keep or len(keep) == len(terms):
+        return fitted
+    try:
+        refit = fit(t, y, keep, drift=drift, confidence=level, intervals=intervals, seed=seed)
+    except (PoleprintError, np.linalg.LinAlgError, ValueError):
+        return fitted
+    refit.details["pruned"] = [{"real": x["real"], "imag": x["imag"], "reason": "negligible amplitude after the fit"}
+                               for x, e in zip(terms, energies) if e < MIN_MODE_ENERGY * noise_var]
+    return refit
+
+
+def _second_look(t_all, y_all, lo, hi, fitted, baseline, level, max_modes, modes, drift, intervals, seed):
+    """Pencil and fit on ``[lo, hi)``; returned only when the residual RMS is within
+    ``SECOND_LOOK_RATIO`` of the current fit's on its own (shorter) segment."""
+    from ._nls import fit_damped_sinusoids, model_values
+    from ._pencil import matrix_pencil
+
+    d = fitted.details
+    terms = d["terms"]
+    t, y = t_all[lo:hi], y_all[lo:hi]
+    t_cur = t_all[np.searchsorted(t_all, d["t_ref_s"]):hi]
+    y_cur = y_all[t_all.size - (t_all.size - np.searchsorted(t_all, d["t_ref_s"])):hi]
+    model = model_values(t_cur - d["t_ref_s"], [-x["real"] for x in terms], [x["imag"] for x in terms],
+                         [x["c"] for x in terms], [x["d"] for x in terms], d["offset"], d["drift_per_s"] or 0.0)
+    noise_ref = float(np.std(y_cur - model))
+    try:
+        pencil = matrix_pencil(t, y - baseline.evaluate(t), confidence=level, max_modes=max(max_modes, 10))
+        if modes != "auto" and len(pencil.poles) > modes:
+            keep = sorted(pencil.poles, key=lambda p: -(p.amplitude or 0.0))[:modes]
+            pencil = MethodEstimate("pencil", tuple(keep), pencil.warnings, pencil.details)
+        fit = fit_damped_sinusoids(t, y, pencil.poles, drift=drift, confidence=level, intervals=intervals,
+                                   seed=seed)
+        fit = _prune(fit, t, y, fit_damped_sinusoids, drift, level, intervals, seed)
+    except (PoleprintError, np.linalg.LinAlgError, ValueError):
+        return None
+    e = fit.details
+    tm = e["terms"]
+    resid = y - model_values(t - e["t_ref_s"], [-x["real"] for x in tm], [x["imag"] for x in tm],
+                             [x["c"] for x in tm], [x["d"] for x in tm], e["offset"], e["drift_per_s"] or 0.0)
+    if float(np.std(resid)) <= SECOND_LOOK_RATIO * noise_ref:
+        return pencil, fit
+    return None
 
 
 def _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted):
@@ -486,6 +553,7 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
             except (PoleprintError, np.linalg.LinAlgError, ValueError) as exc:
                 warnings.append(f"fit failed: {' '.join(str(exc).split())}; the matrix-pencil poles are the answer")
             else:
+                fitted = _prune(fitted, t, y, fit_damped_sinusoids, drift, level, intervals, seed)
                 methods["fit"] = fitted
                 answer = fitted
                 detected = (float(t[0]), float(t[-1]))
@@ -500,7 +568,20 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                     except (PoleprintError, np.linalg.LinAlgError, ValueError):
                         break
                     lo, hi = new_lo, new_hi
+                    refit = _prune(refit, t_all[lo:hi], y_all[lo:hi], fit_damped_sinusoids, drift, level,
+                                   intervals, seed)
                     methods["fit"] = answer = fitted = refit
+                if lo > lo_min and start_s is None:
+                    # the model did not reach back to the trigger (or the record start): a
+                    # fast-decaying mode may be gone by the detected start.  Look again from
+                    # there; keep it only if a free decay explains those samples as well.
+                    second = _second_look(t_all, y_all, lo_min, hi, fitted, pre, level, max_modes, modes,
+                                          drift, intervals, seed)
+                    if second is not None:
+                        lo = lo_min
+                        methods["pencil"], fitted = second
+                        methods["fit"] = answer = fitted
+                        order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
                 if detected != (float(t_all[lo]), float(t_all[hi - 1])):
                     seg_info["detected_start_s"], seg_info["detected_end_s"] = detected
                     t, y = t_all[lo:hi], y_all[lo:hi]

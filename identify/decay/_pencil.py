@@ -36,8 +36,9 @@ MAX_DAMPING_RATIO = 0.9
 def choose_decimation(values, sample_time_s, *, samples_per_period=SAMPLES_PER_PERIOD):
     """Decimation factor that leaves about ``samples_per_period`` samples per period of the
     fastest significant spectral peak (20 dB above the median floor, within 60 dB of the
-    largest peak, 15 dB prominent).  Returns ``(factor, fastest_hz)``; factor 1 means no
-    decimation."""
+    largest peak, 15 dB prominent), or of the frequency below which 99 % of the power
+    above the floor lies, whichever is higher.  Returns ``(factor, fastest_hz)``; factor 1
+    means no decimation."""
     y = np.asarray(values, dtype=float)
     n = y.size
     if n < 128:
@@ -58,9 +59,14 @@ def choose_decimation(values, sample_time_s, *, samples_per_period=SAMPLES_PER_P
     # (the block-mean filter preserves poles exactly, so only the modes' frequencies matter)
     log_power = np.log10(np.maximum(power, peak * 1e-300))
     top = _fastest_prominent_peak(log_power, math.log10(threshold), 1.5)
-    if top is None:
+    # ... and never below the frequency holding 99 % of the power above the floor (a
+    # heavily damped mode has a broad peak that need not be prominent)
+    excess = np.maximum(power - 2.0 * np.median(power[1:]), 0.0)
+    cum = np.cumsum(excess)
+    bulk = int(np.searchsorted(cum, 0.99 * cum[-1])) if cum[-1] > 0 else 0
+    if top is None and bulk == 0:
         return 1, float("nan")
-    fastest_hz = (top + 1) / (seg.size * sample_time_s)
+    fastest_hz = (max(top or 0, bulk) + 1) / (seg.size * sample_time_s)
     factor = int(1.0 / (sample_time_s * samples_per_period * fastest_hz))
     factor = max(1, min(factor, n // 64))
     return factor, float(fastest_hz)
@@ -268,6 +274,7 @@ def matrix_pencil(time_s, values, *, order="auto", confidence=0.95, max_modes=10
     energies = np.sum(np.abs(vander * h) ** 2, axis=0)  # per exponential, scaled units
 
     s_all = np.log(z.astype(complex)) / ts_d
+    duration = float(t[-1] - t[0])
     nyq = math.pi / ts_d
     kept, dropped, real_terms = [], [], []
     tiny = 1e-9
@@ -282,6 +289,11 @@ def matrix_pencil(time_s, values, *, order="auto", confidence=0.95, max_modes=10
             continue
         pole_energy = 2.0 * ei  # both members of the pair
         zeta = -si.real / abs(si)
+        if si.imag * duration < math.pi:  # under half a cycle over the record: a trend
+            real_terms.append({"real": float(si.real), "imag": float(si.imag),
+                               "amplitude": float(2 * abs(hi) * scale),
+                               "note": "under half a cycle over the record: taken as baseline"})
+            continue
         reason = None
         if factor > 1 and si.imag > 0.8 * nyq:
             reason = "above the decimation filter's band"

@@ -295,7 +295,8 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     from .._response import ModelResponse
     from ..conditioning._stepdetect import STEADY_LIMIT, detect_step, noise_std, settled_tail, steady_statistic
     from ._figures import figures_table, measure_figures
-    from ._fit import FitSetup, fit_structure
+    from ..poles import normal_quantile
+    from ._fit import FitSetup, dead_time_profile_interval, fit_structure
     from ._result import StepResult
     from ._tuning import simc
     from ._twopoint import two_point_estimates
@@ -405,10 +406,17 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     gain_unit = f"{out_ch.unit}/{in_unit}" if (out_ch.unit or in_unit) else ""
     if chosen.structure == "integrating" and gain_unit:
         gain_unit += "/s"
+    dead_time_interval = "bootstrap" if intervals == "bootstrap" else "delta"
     if intervals == "bootstrap":
         ci, poles = _bootstrap(chosen, setup, level, seed)
     else:
         ci, poles = _delta_intervals(chosen, level), _poles_delta(chosen, level)
+        theta_hat, theta_se = chosen.values["dead_time_s"], chosen.stderr("dead_time_s")
+        z = normal_quantile(level)
+        if not (math.isfinite(theta_se) and theta_hat - z * theta_se > 0):
+            # at or near the bound theta = 0 the normal approximation fails: profile likelihood
+            ci["dead_time_s"] = dead_time_profile_interval(chosen, setup, level)
+            dead_time_interval = "profile likelihood (estimate at or near zero)"
     pmodel = _process_model(chosen, ci, poles, level, intervals, gain_unit)
     runner_model = None
     if runner is not None:
@@ -426,8 +434,12 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
         settled = False
     else:
         model_final = v["offset"] + v["gain"] * step.size
-        remaining = 1.0 - float(step_response(chosen.structure, shape, [t[-1] - step.time_s - v["dead_time_s"]])[0])
-        settled = abs(remaining) <= band
+        # largest distance from the final value, from the last sample on (catches ringing)
+        slow_s = max([ts] + [1.0 / abs(p.real) for p in _model_poles_plain(chosen) if p.real != 0])
+        t_rel = t[-1] - step.time_s - v["dead_time_s"]
+        ahead = t_rel + np.linspace(0.0, 10.0 * slow_s, 2001)
+        remaining = float(np.max(np.abs(1.0 - step_response(chosen.structure, shape, ahead))))
+        settled = remaining <= band
         tail_settled, drift = settled_tail(t[post], y[post], change=v["gain"] * step.size, band=band, sigma=sigma)
         if not settled:
             warnings.append(f"not settled at the end: the model is still {100 * abs(remaining):.1f} % of the change "
@@ -468,6 +480,9 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     metrics = figures_table(meas, mod, unit=out_ch.unit, settling_band=band, notes=notes)
 
     # -- remaining warnings ---------------------------------------------------------------
+    if chosen.degenerate:
+        warnings.append(f"degenerate structure: {chosen.degenerate}; a simpler structure fits as well "
+                        f"(see the candidates)")
     noise_band = NOISE_BAND_SIGMAS * sigma
     moved = abs(v["gain"] * step.size) if not integrating else abs(float(chosen.fitted[-1] - v["offset"]))
     if noise_band > 0 and moved < SMALL_STEP_RATIO * noise_band:
@@ -495,7 +510,8 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
                 "closed_loop_time_constant_s": tau_c, "start_s": start_s, "end_s": end_s,
                 "sample_rate_hz": sample_rate_hz, "nan": nan, "seed": seed,
                 "bootstrap_samples": BOOTSTRAP_SAMPLES if intervals == "bootstrap" else None,
-                "sample_time_s": ts, "criterion": "BIC", "input_hold": "zero-order hold"}
+                "sample_time_s": ts, "criterion": "BIC", "input_hold": "zero-order hold",
+                "dead_time_interval": dead_time_interval}
     return StepResult(source=record.source, sha256=record.sha256, model=pmodel, runner_up=runner_model,
                       candidates=candidates, poles=tuple(poles), metrics=metrics, twopoint=tuple(twopoint),
                       tuning=tuning, fit=fit, warnings=tuple(warnings), settings=settings, step=step,

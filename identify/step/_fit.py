@@ -395,3 +395,47 @@ def fit_structure(structure: str, setup: FitSetup, *, seed_theta_s: float, seed_
         parameter_count=p, aicc=aicc, bic=bic, ljung_box_p=ljung_box_p(resid),
         fit_percent=fit_percent(setup.y[setup.mask], fitted[setup.mask]),
         residual_rms=rms(resid), fitted=fitted, degenerate=_degenerate(structure, new, setup))
+
+
+def dead_time_profile_interval(fit: CandidateFit, setup: FitSetup, level: float) -> tuple:
+    """Profile-likelihood interval of the dead time (for an estimate at or near zero).
+
+    The dead time is fixed at trial values and every other parameter refitted; the
+    interval holds the values whose RSS stays within ``RSS_min + χ²₁(level)·s²``
+    (s² = RSS_min/(N - p)), found by doubling steps and bisection.  Used when the
+    delta interval would cross the bound θ = 0, where the normal approximation fails.
+    """
+    import lmfit
+    from scipy.stats import chi2
+
+    ts = setup.sample_time_s
+    s2 = fit.rss / max(fit.samples - fit.parameter_count, 1)
+    limit = fit.rss + float(chi2.ppf(level, 1)) * s2
+    theta_hat = fit.values["dead_time_s"]
+    residual = _residual_function(fit.structure, setup)
+
+    def rss_at(theta):
+        params = _lmfit_parameters(fit.structure, dict(fit.values, dead_time_s=theta), setup)
+        params["dead_time_s"].set(value=theta, vary=False)
+        res = lmfit.minimize(residual, params, method="leastsq")
+        return float(res.chisqr)
+
+    def bisect(inside, outside):
+        for _ in range(30):
+            if abs(outside - inside) <= 1e-3 * ts:
+                break
+            mid = 0.5 * (inside + outside)
+            if rss_at(mid) <= limit:
+                inside = mid
+            else:
+                outside = mid
+        return 0.5 * (inside + outside)
+
+    lower = 0.0 if theta_hat <= 0 or rss_at(0.0) <= limit else bisect(theta_hat, 0.0)
+    step = max(fit.stderr("dead_time_s"), 0.5 * ts) if math.isfinite(fit.stderr("dead_time_s")) else 0.5 * ts
+    hi = theta_hat + step
+    while rss_at(hi) <= limit and hi < setup.dead_time_max_s:
+        step *= 2.0
+        hi = min(theta_hat + step, setup.dead_time_max_s)
+    upper = bisect(theta_hat, hi) if hi < setup.dead_time_max_s or rss_at(hi) > limit else hi
+    return lower, upper
