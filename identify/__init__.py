@@ -6,6 +6,19 @@ Import name ``identify``; command ``poleprint``.  The public API, one line each
 Records and conditioning
     read_record          read a logger/oscilloscope CSV into a :class:`Record`
     Record, Channel      uniformly sampled, named, traceable channels
+    identify.conditioning  offset/trend, free-decay segment and step detection
+
+Jobs (each returns a frozen result with poles, intervals, warnings and ``to_dict()``)
+    analyse_decay        free decay: modes by pencil → nonlinear fit, cross-checked
+    analyse_step         step test: process model, step figures, starting gains
+    analyse_arx          input/output or output-only records: least-squares ARX
+    fit_arx              ARX on arrays
+
+Validation, outputs and history
+    validate, Validation   fit percent, R², residual whiteness, verdict in words
+    write_report           one self-contained HTML report
+    check_against, CheckResult   a saved result against a new record: how poles moved
+    HistoryStore, analyse_trend, TrendResult   per-rig SQLite history and damping trends
 
 Poles
     Pole, PoleIntervals, Interval   a pole, its intervals and derived quantities
@@ -30,6 +43,14 @@ from .records import Channel, Record
 #: public name -> module that defines it (imported on first access)
 _LAZY = {
     "read_record": "identify._csv",
+    "analyse_decay": "identify.decay", "DecayResult": "identify.decay",
+    "analyse_step": "identify.step", "StepResult": "identify.step",
+    "analyse_arx": "identify.arx", "ArxResult": "identify.arx", "fit_arx": "identify.arx",
+    "validate": "identify.validation", "Validation": "identify.validation",
+    "write_report": "identify.report",
+    "check_against": "identify.check", "CheckResult": "identify.check",
+    "HistoryStore": "identify.history", "analyse_trend": "identify.history",
+    "TrendResult": "identify.history",
 }
 
 __all__ = [

@@ -69,3 +69,27 @@ def test_wrong_column_is_one_line(tmp_path, capsys):
     assert main(["step", str(f), "--input", "valve", "--output", "nope"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "available" in err[0]
+
+
+@pytest.mark.parametrize("name, inp, out", [("valve_step.csv", "valve_cmd", "flow"),
+                                            ("actuator_step.csv", "command", "position")])
+def test_demo_records_against_their_truth(name, inp, out, capsys):
+    # the bundled demo records carry their true parameters in datasets/truth.json
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1] / "datasets"
+    if not (root / name).exists():
+        pytest.skip("demo records not present")
+    truth = json.loads((root / "truth.json").read_text())["files"][name]
+    assert main(["step", str(root / name), "--input", inp, "--output", out, "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    m = d["model"]
+    assert m["structure"] == truth["structure"]
+    assert m["gain"] == pytest.approx(truth["gain"], rel=0.02)
+    assert abs(m["dead_time_s"] - truth["dead_time_s"]) <= max(0.05 * max(truth.get("time_constants_s", [0]) or [0]),
+                                                              2.0 / truth["sample_rate_hz"])
+    for est, true in zip(m["time_constants_s"], truth.get("time_constants_s", [])):
+        assert est == pytest.approx(true, rel=0.05)
+    if truth["structure"] == "underdamped":
+        assert m["natural_frequency_hz"] == pytest.approx(truth["natural_frequency_hz"], rel=0.05)
+        assert m["damping_ratio"] == pytest.approx(truth["damping_ratio"], rel=0.05)

@@ -292,3 +292,23 @@ def test_run_job_passes_only_the_options_a_job_accepts():
 
     with pytest.raises(ParameterValueError, match="cannot tell which job"):
         job_of_saved({"poles": []})
+
+
+def test_decay_record_plot_shows_the_whole_file_only_when_it_is_the_same_file(tmp_path):
+    from identify import read_record
+    from identify.report._figures import _whole_record
+
+    t = np.arange(-50, 400) / 1000
+    y = np.where(t >= 0, np.exp(-3 * t) * np.cos(2 * np.pi * 20 * t), 0.0)
+    csv = tmp_path / "tap.csv"
+    np.savetxt(csv, np.column_stack([t, y]), delimiter=",", header="time [s],accel [m/s^2]", comments="")
+    sha = read_record(str(csv)).sha256
+    base = fake_decay(0)
+    same = FakeDecay(str(csv), sha, base.poles, (), base.settings, base.response, base.segment,
+                     base.methods, base.order_scan)
+    full_t, full_y = _whole_record(same)
+    np.testing.assert_allclose(full_t, t, atol=1e-9)
+    np.testing.assert_allclose(full_y, y, atol=1e-6)
+    other = FakeDecay(str(csv), "0" * 64, base.poles, (), base.settings, base.response, base.segment,
+                      base.methods, base.order_scan)
+    assert _whole_record(other) == (None, None)

@@ -112,10 +112,12 @@ def _smoothed_envelope(y, dt):
         width = int(min(max(round(period), 1), max(y.size // 10, 1)))
     else:
         width = 1
-    if width > 1:
-        kernel = np.ones(width) / width
-        padded = np.concatenate([np.full(width, env[0]), env, np.full(width, env[-1])])
-        env = np.convolve(padded, kernel, mode="same")[width:-width]
+    if width > 1:  # centred moving average by cumulative sums, shrinking at the edges
+        csum = np.concatenate(([0.0], np.cumsum(env)))
+        idx = np.arange(env.size)
+        lo = np.maximum(idx - width // 2, 0)
+        hi = np.minimum(idx - width // 2 + width, env.size)
+        env = (csum[hi] - csum[lo]) / (hi - lo)
     return env, width
 
 
@@ -160,7 +162,8 @@ def detect_decay_segment(time_s, values, *, start_s=None, end_s=None, noise_std=
        from a held displacement quadratically, both within a sample or two at 30 dB).
     3. *Ring-down start.*  After the trigger, the Hilbert envelope (about the median
        level after the trigger), averaged over one period of the dominant frequency,
-       peaks (without a trigger, the first period is skipped: edge artefact); the excitation is taken to have ended where the envelope first falls
+       peaks (the last period, and without a trigger the first, are edges with Hilbert
+       artefacts and are not searched); the excitation is taken to have ended where the envelope first falls
        below ``EXCITATION_DROP`` of that peak — for a hammer just after the impact, for
        a shaker stop where the steady envelope starts to decay.
     4. *End.*  Where the smoothed envelope first falls to ``END_FACTOR`` noise std
@@ -277,7 +280,8 @@ def _detect(t, x, dt, given_noise):
     # without a trigger the record starts mid-motion, where the Hilbert envelope has an
     # edge artefact: look for the peak from one smoothing width on
     skip = 0 if onset is not None else min(width, max(env.size - 2, 0))
-    p = skip + int(np.argmax(env[skip:]))
+    stop = max(env.size - width, skip + 1)  # the record's end is an edge too
+    p = skip + int(np.argmax(env[skip:stop]))
     if env[p] <= END_FACTOR * 1.25 * s:
         raise IdentificationError(
             f"no response above the noise: the envelope peaks at {env[p] / max(s, 1e-300):.1f} "

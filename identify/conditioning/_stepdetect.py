@@ -282,8 +282,8 @@ def detect_step(time_s, input_values, *, step_time_s=None) -> StepEvent:
     if not math.isfinite(t90):
         t90, i90 = float(t[-1]), n - 1
     rise = max(float(t90 - t10), 0.0) if math.isfinite(t10) else float("nan")
-    # refine the levels: before = samples up to the transition start (minus 2 for the filter)
-    pre_end = max(start_idx - 1, 0)
+    # refine the levels: before = samples up to the last one still within 10 % of the old level
+    pre_end = max(start_idx, 0)
     if pre_end + 1 < MIN_PRE_SAMPLES:
         raise IdentificationError(
             f"the step is at the very start of the record: only {pre_end + 1} samples before it "

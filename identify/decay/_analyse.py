@@ -80,9 +80,11 @@ def _segment(t, y, start_s, end_s, source):
     if detect_decay_segment is not None:
         try:
             seg = detect_decay_segment(t, y, start_s=start_s, end_s=end_s)
-        except IdentificationError as exc:
+        except (IdentificationError, ParameterValueError) as exc:
             # detection found nothing it trusts: analyse the whole record (or the given
             # bounds) and let the pencil's own noise test decide; never a made-up mode
+            if isinstance(exc, ParameterValueError) and (start_s is not None or end_s is not None):
+                raise
             info["detection"] = f"failed: {' '.join(str(exc).split())}"
     if seg is not None:
         s0, s1 = float(seg.start_s), float(seg.end_s)
@@ -193,17 +195,17 @@ def _prune(fitted, t, y, fit, drift, level, intervals, seed):
     return refit
 
 
-def _second_look(t_all, y_all, lo, hi, fitted, baseline, level, max_modes, modes, drift, intervals, seed):
+def _second_look(t_all, y_all, lo, lo_cur, hi, fitted, baseline, level, max_modes, modes, drift, intervals,
+                 seed):
     """Pencil and fit on ``[lo, hi)``; returned only when the residual RMS is within
-    ``SECOND_LOOK_RATIO`` of the current fit's on its own (shorter) segment."""
+    ``SECOND_LOOK_RATIO`` of the current fit's on its own segment ``[lo_cur, hi)``."""
     from ._nls import fit_damped_sinusoids, model_values
     from ._pencil import matrix_pencil
 
     d = fitted.details
     terms = d["terms"]
     t, y = t_all[lo:hi], y_all[lo:hi]
-    t_cur = t_all[np.searchsorted(t_all, d["t_ref_s"]):hi]
-    y_cur = y_all[t_all.size - (t_all.size - np.searchsorted(t_all, d["t_ref_s"])):hi]
+    t_cur, y_cur = t_all[lo_cur:hi], y_all[lo_cur:hi]
     model = model_values(t_cur - d["t_ref_s"], [-x["real"] for x in terms], [x["imag"] for x in terms],
                          [x["c"] for x in terms], [x["d"] for x in terms], d["offset"], d["drift_per_s"] or 0.0)
     noise_ref = float(np.std(y_cur - model))
@@ -575,7 +577,7 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                     # the model did not reach back to the trigger (or the record start): a
                     # fast-decaying mode may be gone by the detected start.  Look again from
                     # there; keep it only if a free decay explains those samples as well.
-                    second = _second_look(t_all, y_all, lo_min, hi, fitted, pre, level, max_modes, modes,
+                    second = _second_look(t_all, y_all, lo_min, lo, hi, fitted, pre, level, max_modes, modes,
                                           drift, intervals, seed)
                     if second is not None:
                         lo = lo_min

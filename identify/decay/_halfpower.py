@@ -145,6 +145,16 @@ def _local_transform(x, dt, omega):
     return czt(x, m=omega.size, w=np.exp(-1j * step * dt), a=np.exp(1j * omega[0] * dt))
 
 
+def _mode_transform(sigma, omega_d, residue, omega, dt, nsamples):
+    """Transform on ``omega`` of one mode ``R zⁿ + R* z*ⁿ`` less its mean (n = 0…N−1)."""
+    z = np.exp(complex(-sigma, omega_d) * dt)
+    e = np.exp(-1j * omega * dt)
+    spectrum = residue / (1.0 - z * e) + np.conj(residue) / (1.0 - np.conj(z) * e)
+    mean = 2.0 * np.real(residue * (1.0 - z ** nsamples) / (1.0 - z)) / nsamples
+    kernel = (1.0 - np.exp(-1j * omega * nsamples * dt)) / (1.0 - e)
+    return spectrum - mean * kernel
+
+
 def _noise_basis(omega, dt, nsamples, margin=24):
     """Map from the DFT of white noise to its transform on the local grid ``omega``.
 
@@ -216,9 +226,10 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     depend on the spectrum type — REFERENCES.md: exact on velocity, +1 % at ζ = 0.1 on
     displacement, +5 % (ζ = 0.1) and +26 % (ζ = 0.2) on acceleration.  Here it is
     estimated from the current pole and residue and subtracted before the −3 dB points
-    are taken (three iterations), which removes that bias for any initial condition of
-    a single separated mode.  What remains: leakage of *other* modes (hence the
-    separation check), truncation when the record ends before the decay has died
+    are taken (``MIRROR_ITERATIONS`` times), which removes that bias for any initial
+    condition of a single mode; with several modes the other modes' modelled
+    transforms are subtracted as well.  What remains: overlap of modes too close to
+    separate (hence the separation check), truncation when the record ends before the decay has died
     (warned), and the noise floor, which widens the band at low SNR (corrected to first
     order by the bootstrap below).
 
@@ -273,7 +284,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     if not np.any(x0):
         raise IdentificationError("no resonance: the signal is constant")
 
-    nfft = int(2 ** math.ceil(math.log2(max(8 * n, 4096))))
+    nfft = int(2 ** math.ceil(math.log2(max(4 * n, 4096))))
     nfft = min(nfft, 2 ** 22) if n <= 2 ** 22 else int(2 ** math.ceil(math.log2(n)))
     spec = np.fft.rfft(x0, nfft)
     mag = np.abs(spec)
@@ -338,6 +349,27 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         raise IdentificationError("no resonance with half-power points: "
                                   + "; ".join(w.split(": ", 1)[1] for w in warnings if w.startswith("no half")))
 
+    # with several modes, each mode's spectrum also holds the others' skirts: subtract
+    # their modelled transforms (both conjugate terms, less their part of the removed
+    # mean) and estimate again
+    if len(found) > 1:
+        for _ in range(MIRROR_ITERATIONS):
+            updated = []
+            for i, item in enumerate(found):
+                omega, local = item[2], item[3]
+                others = np.zeros(omega.size, dtype=complex)
+                for j, other in enumerate(found):
+                    if j != i:
+                        others += _mode_transform(other[4], other[5], other[8], omega, dt, n)
+                sig_i, wd_i, w1_i, w2_i, res_i, corr_i = _half_power_points(
+                    (local - others)[None, :], omega, dt, nsamples=n)
+                if not (np.isfinite(sig_i[0]) and np.isfinite(wd_i[0])):
+                    updated.append(item)
+                    continue
+                updated.append(item[:4] + (float(sig_i[0]), float(wd_i[0]), float(w1_i[0]), float(w2_i[0]),
+                                           complex(res_i[0]), corr_i[0] + others))
+            found = updated
+
     # noise for the bootstrap: the residual of the decay rebuilt from the estimates
     # (x̂_n = Σ 2 Re(R zⁿ) about the record mean); a misfit only makes it larger
     nn = np.arange(n)
@@ -390,7 +422,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         poles.append(pole)
         per_pole.append({"peak_hz": fpk, "f1_hz": f1, "f2_hz": f2, "lines_in_band": lines,
                          "bootstrap_used": int(boot.size)})
-    order = np.argsort([p.natural_frequency_hz for p in poles])
+    order = np.argsort([p.natural_frequency_hz for p in poles])  # MethodEstimate sorts the poles too
     details = {"resonances": [per_pole[i] for i in order], "noise_std": noise, "nfft": nfft,
                "bootstrap_samples": BOOTSTRAP_SAMPLES, "bootstrap_seed": BOOTSTRAP_SEED}
     return MethodEstimate("halfpower", tuple(poles), tuple(warnings), details)

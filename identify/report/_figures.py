@@ -49,6 +49,30 @@ def _confidence(result) -> float:
     return value if 0.0 < value < 1.0 else 0.95
 
 
+def _whole_record(result):
+    """The whole analysed channel, re-read from the source file when it is still the same
+    file (same SHA-256); ``(None, None)`` otherwise."""
+    import os
+
+    source = getattr(result, "source", None)
+    column = getattr(result, "column", None)
+    sha = getattr(result, "sha256", None)
+    if not source or not sha or not os.path.isfile(str(source)):
+        return None, None
+    try:
+        from .._csv import read_record
+
+        record = read_record(str(source))
+        if record.sha256 != sha:
+            return None, None
+        channel = record.channel(column) if column is not None else record.channels[0]
+        if channel.values.size > 200_000:  # the segment alone is enough on huge records
+            return None, None
+        return record.time_s, channel.values
+    except Exception:  # the plot then shows the analysed segment only
+        return None, None
+
+
 def _step_time(result):
     """The step instant: ``result.step.time_s`` when the job found one."""
     step = getattr(result, "step", None)
@@ -89,8 +113,10 @@ def figures_for(result) -> list:
                                                  title="Step response")))
         else:
             segment = getattr(result, "segment", None)
+            full_t, full_y = _whole_record(result) if kind == "decay" else (None, None)
             todo.append(("record", "Record with the analysed segment and the model",
-                         lambda: plots.plot_record(response, segment=segment)))
+                         lambda: plots.plot_record(response, segment=segment, full_time_s=full_t,
+                                                   full_measured=full_y)))
         todo.append(("residuals", "Residuals and their autocorrelation",
                      lambda: plots.plot_residuals(response, confidence=confidence)))
     if poles:

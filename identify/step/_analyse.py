@@ -69,6 +69,15 @@ def _interp_missing(y, mask):
     return np.interp(idx, idx[mask], y[mask])
 
 
+def _moving_mean(y, width):
+    """Centred moving mean of odd ``width`` (edges padded with the end values)."""
+    if width < 3 or y.size < 3 * width:
+        return y
+    half = width // 2
+    pad = np.concatenate([np.full(half, y[0]), y, np.full(half, y[-1])])
+    return np.convolve(pad, np.ones(width) / width, mode="valid")
+
+
 def _given_step(t, step_time_s, step_size):
     from ..conditioning._stepdetect import StepEvent
 
@@ -294,8 +303,8 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     """
     from .._response import ModelResponse
     from ..conditioning._stepdetect import STEADY_LIMIT, detect_step, noise_std, settled_tail, steady_statistic
-    from ._figures import figures_table, measure_figures
     from ..poles import normal_quantile
+    from ._figures import figures_table, measure_figures
     from ._fit import FitSetup, dead_time_profile_interval, fit_structure
     from ._result import StepResult
     from ._tuning import simc
@@ -383,7 +392,7 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     if not (math.isfinite(seed_theta) and seed_theta >= 0):
         seed_theta = 0.0
     seed_wn = seed_zeta = None
-    shape_meas = measure_figures(t, np.convolve(y_fill, np.ones(smooth) / smooth, mode="same") if smooth > 1 else y_fill,
+    shape_meas = measure_figures(t, _moving_mean(y_fill, smooth // 2 * 2 + 1),
                                  step_time_s=step.time_s, initial=y0, final=yf_tail)
     mp = shape_meas["overshoot_percent"] / 100.0
     if math.isfinite(mp) and mp > 0.02 and math.isfinite(shape_meas["peak_time_s"]):
@@ -452,12 +461,27 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     measured_final = yf_tail if (settled or integrating) else model_final
     if not settled and not integrating:
         notes["final_value"] = "extrapolated from the model: the record ends before the response settles"
-    meas = measure_figures(t, y_fill, step_time_s=step.time_s, initial=y0, final=measured_final, settling_band=band)
+    # the measured figures are read from the record smoothed by a centred moving mean over
+    # about a tenth of the model's rise time (noise would make first crossings early)
+    smooth_n = 1
+    if not integrating:
+        grid = np.linspace(0.0, 10.0 * slow_s, 4001)
+        rise = measure_figures(grid, step_response(chosen.structure, shape, grid), step_time_s=0.0,
+                               initial=0.0, final=1.0)["rise_time_s"]
+        if math.isfinite(rise):
+            smooth_n = int(rise / ts / 10.0) // 2 * 2 + 1
+    y_meas = _moving_mean(y_fill, smooth_n)
+    meas = measure_figures(t, y_meas, step_time_s=step.time_s, initial=y0, final=measured_final, settling_band=band)
     change = measured_final - y0
+    # the largest of N noise samples reaches about sigma·sqrt(2 ln N): a measured peak
+    # within that (plus one sigma) of the final value is noise, not overshoot (common
+    # practice, no source)
+    peak_noise = sigma * (math.sqrt(2.0 * math.log(max(n_post, 2))) + 1.0)
     if (math.isfinite(change) and change != 0 and meas["overshoot_percent"] > 0
-            and meas["overshoot_percent"] / 100.0 * abs(change) < 3.0 * sigma):
+            and meas["overshoot_percent"] / 100.0 * abs(change) < peak_noise):
         meas["overshoot_percent"], meas["peak_time_s"] = 0.0, float("nan")
-        notes["overshoot_percent"] = "measured peak within the noise (3 sigma): no overshoot shown"
+        notes["overshoot_percent"] = ("measured peak within the noise (sigma·(sqrt(2 ln N) + 1)): "
+                                      "no overshoot shown")
     if math.isfinite(change) and 3.0 * sigma > band * abs(change):
         meas["settling_time_s"] = float("nan")
         notes["settling_time_s"] = "measured value not given: the noise (3 sigma) exceeds the settling band"
@@ -511,7 +535,7 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
                 "sample_rate_hz": sample_rate_hz, "nan": nan, "seed": seed,
                 "bootstrap_samples": BOOTSTRAP_SAMPLES if intervals == "bootstrap" else None,
                 "sample_time_s": ts, "criterion": "BIC", "input_hold": "zero-order hold",
-                "dead_time_interval": dead_time_interval}
+                "dead_time_interval": dead_time_interval, "measured_figures_smoothing_samples": smooth_n}
     return StepResult(source=record.source, sha256=record.sha256, model=pmodel, runner_up=runner_model,
                       candidates=candidates, poles=tuple(poles), metrics=metrics, twopoint=tuple(twopoint),
                       tuning=tuning, fit=fit, warnings=tuple(warnings), settings=settings, step=step,
