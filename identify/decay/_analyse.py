@@ -32,6 +32,7 @@ EXTEND_PEAK = 5.0           # ... and no sample beyond 5 noise std in the block
 EXTEND_EDGE = 3.0           # in the first failing block, kept up to 2 samples in a row beyond 3 std
 EXTEND_ROUNDS = 4           # grow, refit, grow again (the refit extrapolates better)
 SECOND_LOOK_RATIO = 1.1     # a fit from the trigger is kept if its residual RMS is within 10 %
+SECOND_LOOK_MIN_SAMPLES = 4  # ... looked for only when the segment stops this far after the trigger
 #: cross-check methods get a block-averaged copy of records longer than this
 CROSS_CHECK_MAX_SAMPLES = 50_000
 HALFPOWER_MAX_SAMPLES = 20_000
@@ -162,13 +163,19 @@ def _block_copy(t, y, fastest_hz, min_samples_per_period, max_samples):
     return td, yd, q
 
 
+def _stride(n, limit=50_000):
+    """Step that leaves at most about ``limit`` of ``n`` samples (for sums and spreads)."""
+    return max(1, -(-int(n) // limit))
+
+
 def _mode_energies(fitted, t):
-    """Energy Σ (mode's term)² over ``t`` of each fitted mode."""
+    """Energy Σ (mode's term)² over ``t`` of each fitted mode (from a strided subset)."""
     from ._nls import model_values
 
     d = fitted.details
-    tau = t - d["t_ref_s"]
-    return [float(np.sum(model_values(tau, [-x["real"]], [x["imag"]], [x["c"]], [x["d"]]) ** 2))
+    step = _stride(t.size)
+    tau = t[::step] - d["t_ref_s"]
+    return [step * float(np.sum(model_values(tau, [-x["real"]], [x["imag"]], [x["c"]], [x["d"]]) ** 2))
             for x in d["terms"]]
 
 
@@ -205,7 +212,8 @@ def _second_look(t_all, y_all, lo, lo_cur, hi, fitted, baseline, level, max_mode
     d = fitted.details
     terms = d["terms"]
     t, y = t_all[lo:hi], y_all[lo:hi]
-    t_cur, y_cur = t_all[lo_cur:hi], y_all[lo_cur:hi]
+    step = _stride(hi - lo_cur)
+    t_cur, y_cur = t_all[lo_cur:hi:step], y_all[lo_cur:hi:step]
     model = model_values(t_cur - d["t_ref_s"], [-x["real"] for x in terms], [x["imag"] for x in terms],
                          [x["c"] for x in terms], [x["d"] for x in terms], d["offset"], d["drift_per_s"] or 0.0)
     noise_ref = float(np.std(y_cur - model))
@@ -221,8 +229,9 @@ def _second_look(t_all, y_all, lo, lo_cur, hi, fitted, baseline, level, max_mode
         return None
     e = fit.details
     tm = e["terms"]
-    resid = y - model_values(t - e["t_ref_s"], [-x["real"] for x in tm], [x["imag"] for x in tm],
-                             [x["c"] for x in tm], [x["d"] for x in tm], e["offset"], e["drift_per_s"] or 0.0)
+    step = _stride(t.size)
+    resid = y[::step] - model_values(t[::step] - e["t_ref_s"], [-x["real"] for x in tm], [x["imag"] for x in tm],
+                                     [x["c"] for x in tm], [x["d"] for x in tm], e["offset"], e["drift_per_s"] or 0.0)
     if float(np.std(resid)) <= SECOND_LOOK_RATIO * noise_ref:
         return pencil, fit
     return None
@@ -245,11 +254,11 @@ def _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted):
     cc = [x["c"] for x in terms]
     dd = [x["d"] for x in terms]
 
-    def resid(a, b):
-        tau = t_all[a:b] - d["t_ref_s"]
-        return y_all[a:b] - model_values(tau, sg, om, cc, dd, d["offset"], d["drift_per_s"] or 0.0)
+    def resid(a, b, step=1):
+        tau = t_all[a:b:step] - d["t_ref_s"]
+        return y_all[a:b:step] - model_values(tau, sg, om, cc, dd, d["offset"], d["drift_per_s"] or 0.0)
 
-    noise = float(np.std(resid(lo, hi)))
+    noise = float(np.std(resid(lo, hi, _stride(hi - lo))))
     if not noise > 0:
         return lo, hi
     ts = float(t_all[1] - t_all[0])
@@ -573,7 +582,7 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                     refit = _prune(refit, t_all[lo:hi], y_all[lo:hi], fit_damped_sinusoids, drift, level,
                                    intervals, seed)
                     methods["fit"] = answer = fitted = refit
-                if lo > lo_min and start_s is None:
+                if lo - lo_min > SECOND_LOOK_MIN_SAMPLES and start_s is None:
                     # the model did not reach back to the trigger (or the record start): a
                     # fast-decaying mode may be gone by the detected start.  Look again from
                     # there; keep it only if a free decay explains those samples as well.

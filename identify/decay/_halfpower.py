@@ -45,13 +45,15 @@ def _sigma_from_half_width(half_width, dt):
         return -np.log(r) / dt
 
 
-def _half_power_points(spectra, omega, dt, iterations=None, nsamples=None):
+def _half_power_points(spectra, omega, dt, nsamples, iterations=None):
     """Half-power estimate on each row of ``spectra`` (complex, on the grid ``omega``).
 
-    The conjugate pole's tail ``conj(R)/(1 − z̄ e^{−jωTs})`` is estimated from the
-    current pole and the spectrum at ωd, subtracted, and the −3 dB points found again;
-    with ``nsamples`` the transform of the constant ``−mean(decay)`` left by removing
-    the record's mean is added back as well.
+    From the current pole and the spectrum at ωd the residue R is estimated; then the
+    conjugate term ``R*(1 − (z* e)ᴺ)/(1 − z* e)`` is subtracted, the transform of the
+    constant ``−mean(decay)`` left by removing the record's mean is added back, and so
+    is the main term's unrecorded tail ``R (z e)ᴺ/(1 − z e)`` (``e = e^{−jωTs}``, N the
+    record length) — leaving the one-sided Lorentzian of an untruncated decay — and the
+    −3 dB points are found again, ``iterations`` times.
 
     Returns arrays (σ, ωd, ω1, ω2, residue R, correction) — the correction being what
     was subtracted from each row; NaN where a −3 dB point is missing.
@@ -90,27 +92,44 @@ def _half_power_points(spectra, omega, dt, iterations=None, nsamples=None):
         sigma = _sigma_from_half_width(0.5 * (w2 - w1), dt)
         if it == iterations:
             break
-        # residue of the pole from the (uncorrected) spectrum at ωd, minus the mirror
+        # residue of the pole from the (uncorrected) spectrum at ωd, less the mirror and
+        # the removed mean of the previous round; every term is the transform of the
+        # *recorded* (truncated, n < N) decay
         safe_wd = np.where(ok, omega_d, omega[ipk])
         fi = np.clip((safe_wd - omega[0]) / step, 0.0, ncol - 1.000001)
         i0 = fi.astype(int)
         frac = fi - i0
         x_wd = rows[r_, i0] * (1.0 - frac) + rows[r_, i0 + 1] * frac
         r = np.exp(-np.where(ok, sigma, 0.0) * dt)
-        zbar = r * np.exp(-1j * safe_wd * dt)
-        mirror_at_wd = np.conj(residue) / (1.0 - zbar * np.exp(-1j * safe_wd * dt))
-        residue = np.where(ok, (x_wd - mirror_at_wd) * (1.0 - r), 0.0)
-        mirror = np.conj(residue)[:, None] / (1.0 - zbar[:, None] * np.exp(-1j * omega[None, :] * dt))
-        corrected = rows - mirror
-        if nsamples:
-            # the record's mean was removed, which left −mean(decay) as a constant:
-            # add back its transform (a Dirichlet kernel) using the current pole
-            z = np.conj(zbar)
-            mean_decay = 2.0 * np.real(residue * (1.0 - z ** nsamples) / (1.0 - z)) / nsamples
-            kernel = (1.0 - np.exp(-1j * omega * nsamples * dt)) / (1.0 - np.exp(-1j * omega * dt))
-            corrected = corrected + mean_decay[:, None] * kernel[None, :]
+        z = r * np.exp(1j * safe_wd * dt)
+        e_wd = np.exp(-1j * safe_wd * dt)
+        known = x_wd - _truncated(np.conj(residue), np.conj(z), e_wd, nsamples)
+        known = known + _mean_of_mode(residue, z, nsamples) * _dirichlet(e_wd, nsamples)
+        residue = np.where(ok, known * (1.0 - r) / (1.0 - r ** nsamples), 0.0)
+        e = np.exp(-1j * omega * dt)[None, :]
+        zc, rc = z[:, None], residue[:, None]
+        mirror = _truncated(np.conj(rc), np.conj(zc), e, nsamples)
+        tail = rc * (zc * e) ** nsamples / (1.0 - zc * e)  # the main term's unrecorded tail
+        mean = _mean_of_mode(residue, z, nsamples)[:, None] * _dirichlet(e, nsamples)
+        corrected = rows - mirror + mean + tail
         correction = rows - corrected
     return sigma, omega_d, w1, w2, residue, correction
+
+
+def _truncated(residue, z, e, nsamples):
+    """Transform ``Σ_{n<N} R zⁿ e⁻ʲʷⁿᵀˢ = R(1 − (z e)ᴺ)/(1 − z e)`` with ``e = e^{−jωTs}``."""
+    ze = z * e
+    return residue * (1.0 - ze ** nsamples) / (1.0 - ze)
+
+
+def _mean_of_mode(residue, z, nsamples):
+    """Mean over n < N of ``R zⁿ + R* z*ⁿ``."""
+    return 2.0 * np.real(residue * (1.0 - z ** nsamples) / (1.0 - z)) / nsamples
+
+
+def _dirichlet(e, nsamples):
+    """Transform of a unit constant over n < N: ``(1 − eᴺ)/(1 − e)``."""
+    return (1.0 - e ** nsamples) / (1.0 - e)
 
 
 def _quadratic_crossing(inv, centre, target, omega, direction):
@@ -146,13 +165,11 @@ def _local_transform(x, dt, omega):
 
 
 def _mode_transform(sigma, omega_d, residue, omega, dt, nsamples):
-    """Transform on ``omega`` of one mode ``R zⁿ + R* z*ⁿ`` less its mean (n = 0…N−1)."""
+    """Transform on ``omega`` of one recorded mode ``R zⁿ + R* z*ⁿ`` (n < N) less its mean."""
     z = np.exp(complex(-sigma, omega_d) * dt)
     e = np.exp(-1j * omega * dt)
-    spectrum = residue / (1.0 - z * e) + np.conj(residue) / (1.0 - np.conj(z) * e)
-    mean = 2.0 * np.real(residue * (1.0 - z ** nsamples) / (1.0 - z)) / nsamples
-    kernel = (1.0 - np.exp(-1j * omega * nsamples * dt)) / (1.0 - e)
-    return spectrum - mean * kernel
+    spectrum = _truncated(residue, z, e, nsamples) + _truncated(np.conj(residue), np.conj(z), e, nsamples)
+    return spectrum - _mean_of_mode(residue, z, nsamples) * _dirichlet(e, nsamples)
 
 
 def _noise_basis(omega, dt, nsamples, margin=24):
@@ -214,7 +231,8 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     Notes
     -----
     *Spectrum.*  The transform of the free decay itself (offset removed, no window, the
-    zero-padded FFT to find the peaks, then the same DTFT on a fine local grid) — for a
+    zero-padded FFT to find the peaks, then the same DTFT on a fine local grid — the
+    FFT's own bins when they are fine enough, else a chirp z-transform) — for a
     displacement record after an impulse it is the displacement frequency response.
     A sampled decay ``x_n = R zⁿ + R* z*ⁿ`` has the transform
     ``R/(1 − z e^{−jωTs}) + R*/(1 − z* e^{−jωTs})``.  The first term's ``|X|²``
@@ -228,10 +246,11 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     estimated from the current pole and residue and subtracted before the −3 dB points
     are taken (``MIRROR_ITERATIONS`` times), which removes that bias for any initial
     condition of a single mode; with several modes the other modes' modelled
-    transforms are subtracted as well.  What remains: overlap of modes too close to
-    separate (hence the separation check), truncation when the record ends before the decay has died
-    (warned), and the noise floor, which widens the band at low SNR (corrected to first
-    order by the bootstrap below).
+    transforms are subtracted as well.  A record that ends before the decay has died is
+    completed the same way: the main term's unrecorded tail, computed from the current
+    pole and residue, is added back.  What remains: overlap of modes too close to
+    separate (hence the separation check) and the noise floor, which widens the band at
+    low SNR (corrected to first order by the bootstrap below).
 
     *Intervals.*  Parametric bootstrap of the spectrum estimate: the noise standard
     deviation ``s`` is the RMS residual of the record about the decay rebuilt from the
@@ -247,9 +266,10 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     removes.  The replicates use a fixed seed, so results are reproducible.
 
     *Resolution.*  A complete decay needs no window, so the zero-padded transform is
-    its exact DTFT and the raw line spacing 1/T does not limit the band; the
-    ``"few spectral lines"`` warning (fewer than 5 raw lines inside the band) is given
-    when the record is also truncated, where the line spacing does smear the peak.
+    its exact DTFT and the raw line spacing 1/T does not limit the band.  A truncated
+    record's smearing is undone by the tail completion only as far as the one-mode
+    model holds, so ``"truncated decay"`` is warned, and ``"few spectral lines"``
+    (fewer than 5 raw lines inside the band) when the record is also truncated.
 
     References
     ----------
@@ -319,7 +339,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     if truncated:
         warnings.append(
             f"truncated decay: the record ends with a standard deviation of {end_rms:.3g}, "
-            f"{end_rms / max(noise, 1e-300):.1f}× the noise; the spectrum is smeared")
+            f"{end_rms / max(noise, 1e-300):.1f}× the noise; its unrecorded tail is taken from the model")
     # pass 1: point estimates of every resonance
     found = []
     for ipk in chosen:
@@ -332,13 +352,26 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         while hi < mag.size - 1 and mag[hi] > level_half:
             hi += 1
         bw_coarse = max(freqs[hi] - freqs[lo], 2.0 * (freqs[1] - freqs[0]))
-        f_lo = max(fpk - GRID_HALF_SPAN * bw_coarse, 0.5 * freqs[1])
-        f_hi = min(fpk + GRID_HALF_SPAN * bw_coarse, 0.5 / dt)
-        npts = int(min(max(2 * GRID_HALF_SPAN * GRID_PER_BANDWIDTH, 50), 600))
-        omega = 2.0 * math.pi * np.linspace(f_lo, f_hi, npts)
-        local = _local_transform(x0, dt, omega)
-        sigma, omega_d, w1, w2, residue, correction = _half_power_points(local[None, :], omega, dt,
-                                                                         nsamples=n)
+        span = GRID_HALF_SPAN * bw_coarse
+        others = [abs(freqs[p] - fpk) for p in chosen if p != ipk]
+        if others:  # keep a neighbouring peak out of this one's grid
+            span = min(span, 0.5 * min(others))
+        f_lo = max(fpk - span, 0.5 * freqs[1])
+        f_hi = min(fpk + span, 0.5 / dt)
+        df = freqs[1] - freqs[0]
+        wanted = bw_coarse / GRID_PER_BANDWIDTH
+        k_lo, k_hi = int(math.ceil(f_lo / df)), int(math.floor(f_hi / df))
+        if df <= wanted and k_hi - k_lo >= 50:
+            # the zero-padded FFT is already fine enough: it *is* the DTFT on its grid
+            stride = max(1, int(wanted // df))
+            bins = np.arange(k_lo, k_hi + 1, stride)
+            omega = 2.0 * math.pi * freqs[bins]
+            local = spec[bins]
+        else:
+            npts = int(min(max(2 * GRID_HALF_SPAN * GRID_PER_BANDWIDTH, 50), 600))
+            omega = 2.0 * math.pi * np.linspace(f_lo, f_hi, npts)
+            local = _local_transform(x0, dt, omega)
+        sigma, omega_d, w1, w2, residue, correction = _half_power_points(local[None, :], omega, dt, n)
         sigma, omega_d, w1, w2 = float(sigma[0]), float(omega_d[0]), float(w1[0]), float(w2[0])
         if not (math.isfinite(sigma) and math.isfinite(omega_d)):
             warnings.append(f"no half-power points: the peak near {fpk:.4g} Hz has no −3 dB points "
@@ -362,7 +395,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
                     if j != i:
                         others += _mode_transform(other[4], other[5], other[8], omega, dt, n)
                 sig_i, wd_i, w1_i, w2_i, res_i, corr_i = _half_power_points(
-                    (local - others)[None, :], omega, dt, nsamples=n)
+                    (local - others)[None, :], omega, dt, n)
                 if not (np.isfinite(sig_i[0]) and np.isfinite(wd_i[0])):
                     updated.append(item)
                     continue
@@ -372,11 +405,10 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
 
     # noise for the bootstrap: the residual of the decay rebuilt from the estimates
     # (x̂_n = Σ 2 Re(R zⁿ) about the record mean); a misfit only makes it larger
-    nn = np.arange(n)
+    tn = np.arange(n) * dt
     model = np.zeros(n)
     for (_, _, _, _, sigma, omega_d, _, _, res, _) in found:
-        z = np.exp(complex(-sigma, omega_d) * dt)
-        model += 2.0 * np.real(res * z ** nn)
+        model += 2.0 * np.exp(-sigma * tn) * (res.real * np.cos(omega_d * tn) - res.imag * np.sin(omega_d * tn))
     resid = x0 - (model - np.mean(model))
     noise_resid = float(np.sqrt(np.sum(resid ** 2) / max(n - 4 * len(found) - 1, 1)))
     noise = noise_resid
@@ -389,7 +421,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         # replicates keep the point estimate's mirror/offset correction (it moves by a
         # negligible second-order amount between replicates), so one pass suffices
         replicas = (local - correction)[None, :] + noise * (draws @ basis)
-        bs_sigma, bs_wd = _half_power_points(replicas, omega, dt, iterations=0)[:2]
+        bs_sigma, bs_wd = _half_power_points(replicas, omega, dt, n, iterations=0)[:2]
         s_hat = complex(-sigma, omega_d)
         boot = -bs_sigma + 1j * bs_wd
         boot = boot[np.isfinite(boot)]

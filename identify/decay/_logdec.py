@@ -309,7 +309,10 @@ def log_decrement(time_s, values, *, confidence: float = 0.95, noise_std=None) -
             f"no oscillation resolved: extrema only {half0 / dt:.1f} samples apart")
     omega0 = math.pi / half0
     q = max(1, int(0.5 * (half0 / dt - 1.0)))
+    # lobes far past the noise floor (noise crossings of the hysteresis) are not needed
+    first_used, last_used = np.flatnonzero(used)[[0, -1]]
     inside = (idx - q >= 0) & (idx + q < x.size)
+    inside &= (np.arange(idx.size) >= first_used) & (np.arange(idx.size) <= last_used + 4)
     times_p, peaks_p, signs, idx = times_p[inside], peaks_p[inside], signs[inside], idx[inside]
     if times_p.size < 3:
         raise IdentificationError("no oscillation: too few whole lobes inside the record")

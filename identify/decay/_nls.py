@@ -160,15 +160,37 @@ def _lmfit_once(lmfit, tau, y, seeds, drift, nyquist):
     params = _build_params(lmfit, seeds, c, d, offset, slope, drift, nyquist, scale)
     ys = y / scale
 
+    cache = {}
+
+    def parts(sg, om):  # e^(-στ)cos ωτ and e^(-στ)sin ωτ, reused by the Jacobian at the same point
+        key = (tuple(sg), tuple(om))
+        if cache.get("key") != key:
+            cache["key"] = key
+            cache["parts"] = [(np.exp(-a * tau) * np.cos(b * tau), np.exp(-a * tau) * np.sin(b * tau))
+                              for a, b in zip(sg, om)]
+        return cache["parts"]
+
     def residual(p):
         v = p.valuesdict()
         sg, om, cc, dd, b0, b1 = _unpack(v, m, drift)
-        return model_values(tau, sg, om, cc, dd, b0, b1) - ys
+        out = b0 + b1 * tau - ys
+        for (ec, es), ci, di in zip(parts(sg, om), cc, dd):
+            out += ci * ec + di * es
+        return out
 
     def jacobian(p):  # analytic, in lmfit's variable order (lmfit applies the bounds' chain rule)
         v = p.valuesdict()
         sg, om, cc, dd, _, _ = _unpack(v, m, drift)
-        return model_jacobian(tau, sg, om, cc, dd, drift)
+        jac = np.empty((tau.size, 4 * m + 1 + int(drift)))
+        for i, ((ec, es), ci, di) in enumerate(zip(parts(sg, om), cc, dd)):
+            jac[:, 4 * i] = -tau * (ci * ec + di * es)
+            jac[:, 4 * i + 1] = tau * (di * ec - ci * es)
+            jac[:, 4 * i + 2] = ec
+            jac[:, 4 * i + 3] = es
+        jac[:, 4 * m] = 1.0
+        if drift:
+            jac[:, 4 * m + 1] = tau
+        return jac
 
     result = lmfit.minimize(residual, params, method="leastsq", nan_policy="raise", Dfun=jacobian,
                             xtol=1e-10, ftol=1e-12, max_nfev=200 * (4 * m + 2))
