@@ -7,7 +7,7 @@ import pytest
 from identify import IdentificationError, ParameterValueError
 from identify.decay._halfpower import half_power
 
-COVERAGE_TRIALS = 200
+COVERAGE_TRIALS = 300
 
 
 def _decay(t, fn, zeta, amplitude=1.0, phase=0.0):
@@ -73,6 +73,9 @@ def test_two_separated_modes_and_requested_frequencies():
         assert pole.damping_ratio == pytest.approx(zeta, rel=0.05)
         assert pole.ci.method == "parametric bootstrap" and pole.ci.level == 0.95
     one = half_power(t, x, frequencies_hz=[10.7], confidence=0.9)
+    # the 4 Hz mode is not modelled, so the noise comes from the robust estimate
+    assert one.details["noise_source"].startswith("robust")
+    assert both.details["noise_source"] == "fit residual"
     assert len(one.poles) == 1 and one.poles[0].natural_frequency_hz == pytest.approx(11.0, rel=1e-3)
     assert one.poles[0].ci.level == 0.9
     details = one.details["resonances"][0]
@@ -98,7 +101,7 @@ def test_truncated_record_warns():
     rng = np.random.default_rng(23)
     est = half_power(t, _decay(t, 5.0, 0.01) + 1e-3 * rng.standard_normal(t.size))
     keys = {w.split(":")[0] for w in est.warnings}
-    assert "truncated decay" in keys and "few spectral lines" in keys
+    assert {"truncated decay", "few spectral lines", "record too short"} <= keys
 
 
 def test_errors():
@@ -106,8 +109,11 @@ def test_errors():
     rng = np.random.default_rng(24)
     with pytest.raises(IdentificationError, match="constant"):
         half_power(t, np.ones(t.size))
+    noise = rng.standard_normal(t.size)
     with pytest.raises(IdentificationError, match="no resonance"):
-        half_power(t, rng.standard_normal(t.size))
+        half_power(t, noise)
+    with pytest.raises(IdentificationError, match="no resonance above the noise"):
+        half_power(t, noise, frequencies_hz=[5.0])  # never a made-up mode where one was asked for
     x = _decay(t, 5.0, 0.02)
     with pytest.raises(ParameterValueError, match="frequencies_hz"):
         half_power(t, x, frequencies_hz=[80.0])

@@ -79,6 +79,16 @@ def test_shaker_stop_starts_where_the_envelope_decays():
     assert seg.end_s > seg.start_s + 2.0
 
 
+def test_given_noise_is_used():
+    t, x, t0, s = _record("hammer", 4)
+    seg = detect_decay_segment(t, x, noise_std=2 * s)
+    assert seg.noise_std == 2 * s and seg.chosen["noise"] == "given"
+    assert abs(seg.trigger_s - t0) <= 2.0 / FS
+    # a doubled noise floor ends the segment earlier: derived, ln(2)/σ earlier
+    plain = detect_decay_segment(t, x)
+    assert plain.end_s - seg.end_s == pytest.approx(math.log(2.0) / SIGMA, abs=0.15)
+
+
 def test_record_that_starts_decaying_has_no_trigger():
     rng = np.random.default_rng(8)
     t = np.arange(0.0, 4.0, 1.0 / FS)

@@ -320,6 +320,21 @@ def _interval_summary(p):
             "damping_ratio_ci": None if ci is None else list(ci.damping_ratio)}
 
 
+def _format_for(*values):
+    """A format with enough significant digits to tell the numbers and limits apart."""
+    flat = []
+    for v in values:
+        flat.extend(v if isinstance(v, (list, tuple)) else [v])
+    flat = [float(v) for v in flat if v is not None and math.isfinite(float(v))]
+    if not flat:
+        return "{:.4g}"
+    scale = max(abs(v) for v in flat) or 1.0
+    gaps = [abs(a - b) for a in flat for b in flat if a != b]
+    smallest = min(gaps) if gaps else scale
+    digits = int(min(12, max(4, math.ceil(math.log10(scale / smallest)) + 2)))
+    return "{:." + str(digits) + "g}"
+
+
 def _at_least(ci, reference):
     """``ci`` widened about its centre to at least the half-width of ``reference``."""
     if ci is None or reference is None:
@@ -358,16 +373,17 @@ def _consensus(answer: MethodEstimate, methods: dict):
                                _at_least(other["damping_ratio_ci"], mine["damping_ratio_ci"]))
             other["agree"] = bool(agree_fn and agree_z)
             row["estimates"][name] = other
-            if not other["agree"]:
+            if not other["agree"] and name != "pencil":
+                # the pencil seeds the fit on the same samples: shown in the table, but it is
+                # not an independent cross-check, so no warning
                 row["agree"] = False
                 what = "ζ" if not agree_z else "fn"
                 if not agree_z:
                     a, b, ca, cb = p.damping_ratio, q.damping_ratio, mine["damping_ratio_ci"], other["damping_ratio_ci"]
-                    fmt = "{:.4g}"
                 else:
                     a, b = p.natural_frequency_hz, q.natural_frequency_hz
                     ca, cb = mine["natural_frequency_ci_hz"], other["natural_frequency_ci_hz"]
-                    fmt = "{:.6g}"
+                fmt = _format_for(a, b, ca, cb)
                 disagreements.append(
                     f"methods disagree: mode {i} ({p.natural_frequency_hz:.4g} Hz): {name} {what} "
                     f"{fmt.format(b)} [{fmt.format(cb[0])}, {fmt.format(cb[1])}] against {answer.method} "
@@ -560,11 +576,11 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
         if method != "pencil":
             try:
                 fitted = fit_damped_sinusoids(t, y, pencil.poles, drift=drift, confidence=level,
-                                              intervals=intervals, seed=seed)
+                                              intervals="delta", seed=seed)
             except (PoleprintError, np.linalg.LinAlgError, ValueError) as exc:
                 warnings.append(f"fit failed: {' '.join(str(exc).split())}; the matrix-pencil poles are the answer")
             else:
-                fitted = _prune(fitted, t, y, fit_damped_sinusoids, drift, level, intervals, seed)
+                fitted = _prune(fitted, t, y, fit_damped_sinusoids, drift, level, "delta", seed)
                 methods["fit"] = fitted
                 answer = fitted
                 detected = (float(t[0]), float(t[-1]))
@@ -574,20 +590,20 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                         break
                     try:
                         refit = fit_damped_sinusoids(t_all[new_lo:new_hi], y_all[new_lo:new_hi], fitted.poles,
-                                                     drift=drift, confidence=level, intervals=intervals,
+                                                     drift=drift, confidence=level, intervals="delta",
                                                      seed=seed)
                     except (PoleprintError, np.linalg.LinAlgError, ValueError):
                         break
                     lo, hi = new_lo, new_hi
                     refit = _prune(refit, t_all[lo:hi], y_all[lo:hi], fit_damped_sinusoids, drift, level,
-                                   intervals, seed)
+                                   "delta", seed)
                     methods["fit"] = answer = fitted = refit
                 if lo - lo_min > SECOND_LOOK_MIN_SAMPLES and start_s is None:
                     # the model did not reach back to the trigger (or the record start): a
                     # fast-decaying mode may be gone by the detected start.  Look again from
                     # there; keep it only if a free decay explains those samples as well.
                     second = _second_look(t_all, y_all, lo_min, lo, hi, fitted, pre, level, max_modes, modes,
-                                          drift, intervals, seed)
+                                          drift, "delta", seed)
                     if second is not None:
                         lo = lo_min
                         methods["pencil"], fitted = second
@@ -605,6 +621,12 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                             order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
                         except PoleprintError:
                             pass
+    if intervals == "bootstrap" and "fit" in methods:  # the segment is settled: resample once
+        try:
+            methods["fit"] = answer = fit_damped_sinusoids(t, y, methods["fit"].poles, drift=drift,
+                                                           confidence=level, intervals="bootstrap", seed=seed)
+        except (PoleprintError, np.linalg.LinAlgError, ValueError) as exc:
+            warnings.append(f"bootstrap failed: {' '.join(str(exc).split())}; delta-method intervals given")
     fastest = max((p.natural_frequency_hz for p in answer.poles), default=0.0) if answer else 0.0
     if method in ("auto", "logdec", "halfpower"):
         if answer is None:

@@ -25,9 +25,11 @@ RELATIVE_HEIGHT = 0.1
 #: Raw spectral lines (record length × bandwidth) advised inside the half-power band.
 MIN_LINES = 5.0
 #: Bootstrap replicates, and the seed that makes the intervals reproducible.
-BOOTSTRAP_SAMPLES = 300
+BOOTSTRAP_SAMPLES = 800
 BOOTSTRAP_SEED = 20261202
-MIRROR_ITERATIONS = 6
+MIRROR_ITERATIONS = 60  # at most; stops when σ and ωd settle
+#: Passes in which every mode is re-estimated with the others' modelled transforms removed.
+MODE_PASSES = 4
 
 
 def _sigma_from_half_width(half_width, dt):
@@ -88,10 +90,17 @@ def _half_power_points(spectra, omega, dt, nsamples, iterations=None):
         w2 = _quadratic_crossing(inv, np.clip(right - 1, 1, ncol - 2), target, omega, +1)
         w1 = np.where(ok, w1, np.nan)
         w2 = np.where(ok, w2, np.nan)
+        previous = None if it == 0 else (sigma, omega_d)
         omega_d = 0.5 * (w1 + w2)
         sigma = _sigma_from_half_width(0.5 * (w2 - w1), dt)
         if it == iterations:
             break
+        if previous is not None:
+            with np.errstate(invalid="ignore"):
+                settled = (np.abs(sigma - previous[0]) <= 1e-12 * omega_d) & \
+                          (np.abs(omega_d - previous[1]) <= 1e-12 * omega_d)
+            if np.all(settled | ~ok):
+                break
         # residue of the pole from the (uncorrected) spectrum at ωd, less the mirror and
         # the removed mean of the previous round; every term is the transform of the
         # *recorded* (truncated, n < N) decay
@@ -105,7 +114,8 @@ def _half_power_points(spectra, omega, dt, nsamples, iterations=None):
         e_wd = np.exp(-1j * safe_wd * dt)
         known = x_wd - _truncated(np.conj(residue), np.conj(z), e_wd, nsamples)
         known = known + _mean_of_mode(residue, z, nsamples) * _dirichlet(e_wd, nsamples)
-        residue = np.where(ok, known * (1.0 - r) / (1.0 - r ** nsamples), 0.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            residue = np.where(ok, known * (1.0 - r) / (1.0 - r ** nsamples), 0.0)
         e = np.exp(-1j * omega * dt)[None, :]
         zc, rc = z[:, None], residue[:, None]
         mirror = _truncated(np.conj(rc), np.conj(zc), e, nsamples)
@@ -255,7 +265,9 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     *Intervals.*  Parametric bootstrap of the spectrum estimate: the noise standard
     deviation ``s`` is the RMS residual of the record about the decay rebuilt from the
     estimated poles and residues (``N − 4M − 1`` degrees of freedom for M modes; any
-    misfit makes it larger, hence the intervals conservative); replicate spectra are the
+    misfit makes it larger, hence the intervals conservative — but when it exceeds 1.5×
+    the robust estimate, e.g. because only some modes were evaluated, the robust estimate
+    is used); replicate spectra are the
     observed local spectrum plus draws of the transform of white noise of std ``s``
     (Dirichlet interpolation of independent DFT lines, ``_noise_basis``), the
     half-power points are found again on each (keeping the point estimate's mirror and
@@ -316,6 +328,8 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         raise IdentificationError("no resonance: the spectrum has no peak above zero frequency")
     noise_mag = noise * math.sqrt(n)
     significant = peaks[mag[peaks] > 4.0 * noise_mag]  # pure noise: P(|X| > 4 s√n) = e⁻¹⁶ per line
+    end_rms = float(np.std(x0[-max(8, n // 20):]))
+    truncated = end_rms > 3.0 * noise + 1e-12 * float(np.max(np.abs(x0)))
     if requested is None:
         top = float(mag[significant].max()) if significant.size else 0.0
         chosen = [int(p) for p in significant if mag[p] >= RELATIVE_HEIGHT * top]
@@ -324,17 +338,23 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         if chosen:
             prom = signal.peak_prominences(mag, np.array(chosen))[0]
             chosen = [p for p, pr in zip(chosen, prom) if pr >= max(0.5 * mag[p], 8.0 * noise_mag)]
-    else:
-        pool = significant if significant.size else peaks
-        chosen = sorted({int(pool[np.argmin(np.abs(freqs[pool] - f))]) for f in requested})
+        if truncated and chosen:
+            # a truncated record has sidelobes every 1/T: keep the larger of any peaks
+            # closer than 4/T, which such a record cannot resolve anyway
+            kept = []
+            for p in sorted(chosen, key=lambda k: -mag[k]):
+                if all(abs(freqs[p] - freqs[q]) >= 4.0 / duration for q in kept):
+                    kept.append(p)
+            chosen = sorted(kept)
+    else:  # the resonance nearest each requested frequency, among those above the noise
+        chosen = sorted({int(significant[np.argmin(np.abs(freqs[significant] - f))]) for f in requested}) \
+            if significant.size else []
     if not chosen:
         raise IdentificationError(
             f"no resonance above the noise: largest peak {float(mag[peaks].max()):.3g} against a noise "
             f"level {noise_mag:.3g} in the spectrum")
 
     rng = np.random.default_rng(BOOTSTRAP_SEED)
-    end_rms = float(np.std(x0[-max(8, n // 20):]))
-    truncated = end_rms > 3.0 * noise + 1e-12 * float(np.max(np.abs(x0)))
     warnings, poles, per_pole = [], [], []
     if truncated:
         warnings.append(
@@ -386,7 +406,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     # their modelled transforms (both conjugate terms, less their part of the removed
     # mean) and estimate again
     if len(found) > 1:
-        for _ in range(MIRROR_ITERATIONS):
+        for _ in range(MODE_PASSES):
             updated = []
             for i, item in enumerate(found):
                 omega, local = item[2], item[3]
@@ -411,7 +431,13 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         model += 2.0 * np.exp(-sigma * tn) * (res.real * np.cos(omega_d * tn) - res.imag * np.sin(omega_d * tn))
     resid = x0 - (model - np.mean(model))
     noise_resid = float(np.sqrt(np.sum(resid ** 2) / max(n - 4 * len(found) - 1, 1)))
-    noise = noise_resid
+    noise_source = "fit residual"
+    if noise_resid > 1.5 * noise:
+        # the residual holds signal the estimates do not model (modes not evaluated,
+        # drift): the robust estimate is closer to the noise near the resonance
+        noise_source = "robust estimate (the fit residual holds unmodelled signal)"
+    else:
+        noise = noise_resid
 
     # pass 2: intervals
     for (ipk, fpk, omega, local, sigma, omega_d, w1, w2, res, correction) in found:
@@ -441,6 +467,12 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
             if lost > 0.05:
                 warnings.append(f"low SNR: half-power points near {fpk:.4g} Hz not found in "
                                 f"{100 * lost:.0f} % of bootstrap replicates")
+        recorded = math.exp(-sigma * duration)
+        if recorded > 0.1:
+            warnings.append(
+                f"record too short: near {fpk:.4g} Hz the decay falls only to {100 * recorded:.0f} % "
+                f"within the record; the estimate leans on the model of the unrecorded tail and "
+                f"its interval does not include that model error")
         if truncated and lines < MIN_LINES:
             warnings.append(
                 f"few spectral lines: only {lines:.1f} lines of the record's resolution inside "
@@ -455,6 +487,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         per_pole.append({"peak_hz": fpk, "f1_hz": f1, "f2_hz": f2, "lines_in_band": lines,
                          "bootstrap_used": int(boot.size)})
     order = np.argsort([p.natural_frequency_hz for p in poles])  # MethodEstimate sorts the poles too
-    details = {"resonances": [per_pole[i] for i in order], "noise_std": noise, "nfft": nfft,
+    details = {"resonances": [per_pole[i] for i in order], "noise_std": noise,
+               "noise_source": noise_source, "nfft": nfft,
                "bootstrap_samples": BOOTSTRAP_SAMPLES, "bootstrap_seed": BOOTSTRAP_SEED}
     return MethodEstimate("halfpower", tuple(poles), tuple(warnings), details)

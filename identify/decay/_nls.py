@@ -25,6 +25,8 @@ __all__ = ["fit_damped_sinusoids", "model_basis", "model_values", "model_jacobia
 #: they are heavily oversampled (speed; see docs/decay.md).  Common practice, no source.
 MAX_FIT_SAMPLES = 50_000
 MIN_FIT_SAMPLES_PER_PERIOD = 8
+#: fits on more samples than this first refine the seeds on the first fifth of the record
+PROGRESSIVE_SAMPLES = 20_000
 
 
 # -- the model and its Jacobian (shared with the pencil's linearised intervals) -------
@@ -294,7 +296,18 @@ def fit_damped_sinusoids(time_s, values, seeds, *, drift=False, confidence=0.95,
     tau = t_fit - t_ref
     ts_fit = float(t_fit[1] - t_fit[0])
     nyquist = math.pi / ts_fit
-    sg, om, cc, dd, b0, b1, converged, nfev = _lmfit_once(lmfit, tau, y_fit, seeds, drift, nyquist)
+    nfev = 0
+    if y_fit.size > PROGRESSIVE_SAMPLES:  # long record: refine the seeds on its first part
+        k = max(PROGRESSIVE_SAMPLES // 4, y_fit.size // 5)
+        try:
+            sg0, om0, *_, n0 = _lmfit_once(lmfit, tau[:k], y_fit[:k], seeds, drift, nyquist)
+            refined = sorted((complex(-a, b) for a, b in zip(sg0, om0)), key=lambda z: z.imag)
+            if all(np.isfinite([z.real for z in refined])) and len({round(z.imag, 9) for z in refined}) == m:
+                seeds, nfev = refined, n0
+        except (ValueError, FloatingPointError):
+            pass
+    sg, om, cc, dd, b0, b1, converged, n1 = _lmfit_once(lmfit, tau, y_fit, seeds, drift, nyquist)
+    nfev += n1
     model = model_values(tau, sg, om, cc, dd, b0, b1)
     resid = y_fit - model
     dof = y_fit.size - n_par

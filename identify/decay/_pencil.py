@@ -43,7 +43,7 @@ def choose_decimation(values, sample_time_s, *, samples_per_period=SAMPLES_PER_P
     n = y.size
     if n < 128:
         return 1, float("nan")
-    seg = y[: 1 << 20]
+    seg = y[: 1 << 18]
     seg = seg - seg.mean()
     # a free decay starts at full amplitude: taper only its last 10 % (half cosine)
     taper = np.ones(seg.size)
