@@ -74,7 +74,7 @@ def test_json_contract(io_result):
     assert d["model"]["dc_gain"] == pytest.approx(2.0, rel=0.05)  # derived: two unit-gain terms
     assert d["validation"]["fit_percent"] == pytest.approx(result.validation["fit_percent"])
     assert len(d["order_search"]) <= 25 and d["order_search_candidates"] == len(result.order_search)
-    assert d["settings"]["criterion"] == "aic"
+    assert d["settings"]["criterion"] == "bic"
     assert "caution" in d and "not clearances" in d["caution"]
     assert isinstance(d["order_scan"], list) and d["order_scan"][0]["order"] == 1
 

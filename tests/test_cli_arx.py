@@ -44,7 +44,7 @@ def test_text_table_with_units_intervals_and_caution(files, capsys):
     out, err = capsys.readouterr()
     assert "na = 3, nb = 3, delay = 1 samples" in out
     assert "fn (Hz)" in out and "zeta 95 % CI" in out and "DC gain" in out and "mm/V" in out
-    assert "order search (AIC" in out and "validation: simulation fit" in out
+    assert "order search (BIC" in out and "validation: simulation fit" in out
     caution = [line for line in out.splitlines() if line.startswith("caution:")]
     assert len(caution) == 1 and "not clearances" in caution[0]
     for word in ("safe", "cleared", "stable"):

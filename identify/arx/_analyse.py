@@ -127,7 +127,7 @@ def _missing(record, y, u, out_name, in_name, nan):
 
 # -- the job ------------------------------------------------------------------------
 def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="auto",
-                criterion: str = "aic", confidence: float = 0.95, refine=None,
+                criterion: str = "bic", confidence: float = 0.95, refine=None,
                 holdout: float = 0.3, decimate="auto", start_s=None, end_s=None,
                 sample_rate_hz=None, nan: str = "raise", max_order=None,
                 max_delay: int = DEFAULT_MAX_DELAY):
@@ -147,7 +147,7 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
     delay : "auto" or int, default="auto"
         Input delay nk in samples (of the analysed, possibly decimated, record);
         ``"auto"`` searches ``0..max_delay``.
-    criterion : {"aic", "bic", "fpe", "aicc"}, default="aic"
+    criterion : {"aic", "bic", "fpe", "aicc"}, default="bic"
         Information criterion for the search.
     confidence : float, default=0.95
         Level of the pole and gain intervals.

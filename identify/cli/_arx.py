@@ -69,8 +69,8 @@ def register(subparsers, name, help_text):
                         help="orders of A and B (default: auto, by the criterion)")
     parser.add_argument("--delay", type=_delay, default="auto", metavar="auto|K",
                         help="input delay in samples of the analysed record (default: auto)")
-    parser.add_argument("--criterion", choices=("aic", "bic", "fpe", "aicc"), default="aic",
-                        help="information criterion for the order search (default: aic)")
+    parser.add_argument("--criterion", choices=("aic", "bic", "fpe", "aicc"), default="bic",
+                        help="information criterion for the order search (default: bic, the more conservative order choice)")
     parser.add_argument("--refine", choices=("iv",), default=None,
                         help="iv: instrumental-variable refinement against sensor (output) noise")
     parser.add_argument("--holdout", type=float, default=0.3, metavar="FRACTION",

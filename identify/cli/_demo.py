@@ -20,7 +20,7 @@ DEMO_RECORDS = (
     ("plate_ringdown_semicolon.csv", "decay", {}),
     ("valve_step.csv", "step", {"input": "valve_cmd", "output": "flow"}),
     ("actuator_step.csv", "step", {"input": "command", "output": "position"}),
-    ("motor_prbs.csv", "arx", {"input": "drive", "output": "speed"}),
+    ("motor_prbs.csv", "arx", {"input": "drive", "output": "speed", "refine": "iv"}),
 )
 DEMO_RIG = "fulmar"
 #: the history needs the answer only: the decay job without its cross-check methods
