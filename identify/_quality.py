@@ -142,3 +142,23 @@ def quality_warnings(channels) -> list:
             if text:
                 out.append(text)
     return out
+
+
+def channel_warnings(outputs=(), inputs=()) -> list:
+    """Quality warnings for the channels a job actually analyses.
+
+    Measured responses (``outputs``) are checked for clipping and coarse quantisation;
+    inputs only for clipping, since a switched input (a step, a binary sequence) has few
+    levels by design.
+    """
+    out = []
+    for ch in outputs:
+        for check in (clipping_warning, quantisation_warning):
+            text = check(ch.values, ch.name)
+            if text:
+                out.append(text)
+    for ch in inputs:
+        text = clipping_warning(ch.values, ch.name)
+        if text:
+            out.append(text)
+    return out

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .._quality import channel_warnings
 from .._errors import IdentificationError, ParameterTypeError, ParameterValueError, RecordError
 from .._validate import check_choice, check_confidence, check_int, check_positive
 
@@ -236,7 +237,7 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
     in_ch = record.channel(input) if has_input else None
     if in_ch is not None and in_ch.name == out_ch.name:
         raise ParameterValueError(f"output and input are the same channel ({out_ch.name!r})")
-    warnings = [str(w) for w in record.warnings]
+    warnings = channel_warnings(outputs=(out_ch,), inputs=() if in_ch is None else (in_ch,))
     y_all = np.asarray(out_ch.values, dtype=float)
     u_all = None if in_ch is None else np.asarray(in_ch.values, dtype=float)
     lo, hi, miss = _missing(record, y_all, u_all, out_ch.name, None if in_ch is None else in_ch.name, nan)

@@ -45,7 +45,8 @@ def render_text(record) -> str:
     lines.append("")
     lines.extend("  " + row for row in table(("channel", "unit", "min", "max", "missing"),
                                              rows).splitlines())
-    for title, key in (("metadata", "metadata"), ("notes", "notes"), ("warnings", "warnings")):
+    # warnings are printed once, on stderr, by the shared per-file loop
+    for title, key in (("metadata", "metadata"), ("notes", "notes")):
         items = s[key]
         if not items:
             continue

@@ -9,6 +9,7 @@ import os
 
 import numpy as np
 
+from .._quality import channel_warnings
 from .._errors import IdentificationError, ParameterTypeError, ParameterValueError, PoleprintError
 from .._validate import check_choice, check_confidence, check_int, check_positive
 from ._checks import _checks, _consensus, _not_used, _why
@@ -137,7 +138,7 @@ def analyse_decay(record_or_path, *, column=None, method="auto", modes="auto", c
 def _analyse(record, column, method, modes, level, intervals, start_s, end_s, nan, seed):
     source = record.source
     channel = record.channel(column)
-    warnings = [w for w in record.warnings]
+    warnings = channel_warnings(outputs=(channel,))
     t_all, y_all, missing_note = _finite_run(record.time_s, channel.values, nan, source)
     if missing_note:
         warnings.append(missing_note)

@@ -109,19 +109,13 @@ def _clip_mask(y):
 
 
 def _clipping(t, y, name):
-    try:
-        from .._quality import clipping_warning
-    except ImportError:  # pragma: no cover - quality checks ship with the package
-        clipping_warning = None
-    mask = _clip_mask(y)
-    if clipping_warning is not None:
-        text = clipping_warning(y, name)
-        if text is None:
-            return None, None
-    elif mask.sum() < 3:
+    """Clipping warning for the analysed part and the index of its last clipped sample."""
+    from .._quality import clipping_warning
+
+    text = clipping_warning(y, name)
+    if text is None:
         return None, None
-    else:
-        text = f"clipping: channel '{name}' sits at its extremes for {int(mask.sum())} samples"
+    mask = _clip_mask(y)
     last = int(np.flatnonzero(mask)[-1]) if mask.any() else -1
     return text, last
 

@@ -6,6 +6,7 @@ import math
 
 import numpy as np
 
+from .._quality import channel_warnings
 from .._errors import IdentificationError, ParameterValueError, RecordError
 from .._validate import check_choice, check_confidence, check_fraction, check_int, check_positive
 from ._intervals import bootstrap_intervals, delta_intervals, poles_delta, process_model
@@ -229,7 +230,7 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
         raise IdentificationError(f"the output {out_ch.name!r} is constant ({yv[0]:g}): no response to identify")
     if input is None:
         u, step = _given_step(t, step_time_s, step_size)
-        in_unit, in_name = "", None
+        in_unit, in_name, in_ch = "", None, None
     else:
         in_ch = record.channel(input)
         u = np.array(in_ch.values, dtype=float)
@@ -240,7 +241,7 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
         step = detect_step(t, u, step_time_s=step_time_s)
         in_unit, in_name = in_ch.unit, in_ch.name
     u_dev = u - step.before_level
-    warnings = list(record.warnings)
+    warnings = channel_warnings(outputs=(out_ch,), inputs=() if in_ch is None else (in_ch,))
 
     # -- pre-step window: level, noise, steadiness -------------------------------------
     y_fill = _interp_missing(y, mask)
@@ -418,7 +419,8 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     fit = {"residual_rms": chosen.residual_rms, "fit_percent": chosen.fit_percent,
            "ljung_box_p": chosen.ljung_box_p, "samples": chosen.samples, "criterion": "BIC",
            "noise_std": sigma}
-    settings = {"output": out_ch.name, "input": in_name, "step_time_s": step_time_s, "step_size": step_size,
+    settings = {"output": out_ch.name, "input": in_name, "output_unit": out_ch.unit, "input_unit": in_unit,
+                "step_time_s": step_time_s, "step_size": step_size,
                 "model": model, "confidence": level, "intervals": intervals, "settling_band": band,
                 "closed_loop_time_constant_s": tau_c, "start_s": start_s, "end_s": end_s,
                 "sample_rate_hz": sample_rate_hz, "nan": nan, "seed": seed,

@@ -27,7 +27,7 @@ def _table(headers, rows):
     return "\n".join(lines)
 
 
-def _model_rows(m):
+def _model_rows(m, out_unit=""):
     rows = [("gain", _f(m.gain), m.gain_unit or "-", _ci(m.ci.get("gain"))),
             ("dead time", _f(m.dead_time_s), "s", _ci(m.ci.get("dead_time_s")))]
     for i, tau in enumerate(m.time_constants_s, 1):
@@ -36,18 +36,22 @@ def _model_rows(m):
     if m.natural_frequency_hz is not None:
         rows.append(("natural frequency", _f(m.natural_frequency_hz), "Hz", _ci(m.ci.get("natural_frequency_hz"))))
         rows.append(("damping ratio", _f(m.damping_ratio), "-", _ci(m.ci.get("damping_ratio"))))
-    rows.append(("initial output", _f(m.offset), "", _ci(m.ci.get("offset"))))
+    rows.append(("initial output", _f(m.offset), out_unit or "-", _ci(m.ci.get("offset"))))
     return rows
 
 
 def render(result) -> str:
     m = result.model
     pct = f"{100 * m.level:g} %"
+    out_u = result.settings.get("output_unit") or ""
+    in_u = result.settings.get("input_unit") or ""
+    out_q = f"({out_u})" if "/" in out_u else out_u
+    kc_unit = f" {in_u or '1'}/{out_q}" if out_u else (f" {in_u}" if in_u else "")
     lines = [f"{result.source}: step test, {m.structure} model plus dead time "
              f"(chosen by {result.fit.get('criterion', 'BIC')})",
              f"step: {result.step.explanation}", ""]
-    lines.append(_table(["parameter", "estimate", "unit", f"{pct} interval ({m.method})"], _model_rows(m)))
-    lines.append(f"fit: {_f(result.fit['fit_percent'], 4)} % (NRMSE), residual rms {_f(result.fit['residual_rms'])}, "
+    lines.append(_table(["parameter", "estimate", "unit", f"{pct} interval ({m.method})"], _model_rows(m, out_u)))
+    lines.append(f"fit: {_f(result.fit['fit_percent'], 4)} % (NRMSE), residual rms {_f(result.fit['residual_rms'])} {out_u}".rstrip() + ", "
                  f"Ljung-Box p {_f(result.fit['ljung_box_p'], 2)}")
     if result.runner_up is not None:
         r = result.runner_up
@@ -87,13 +91,13 @@ def render(result) -> str:
     if tu.controller == "none":
         lines.append(f"starting gains ({tu.rule}): none. {' '.join(tu.notes)}")
     else:
-        part = f"Kc {_f(tu.gain)}, integral time {_f(tu.integral_time_s)} s"
+        part = f"Kc {_f(tu.gain)}{kc_unit}, integral time {_f(tu.integral_time_s)} s"
         if tu.derivative_time_s is not None:
             part += f", derivative time {_f(tu.derivative_time_s)} s"
         lines.append(f"starting gains ({tu.rule}, {tu.form}, tau_c {_f(tu.closed_loop_time_constant_s)} s): {part}")
         for alt in tu.alternatives:
             extra = f", derivative time {_f(alt['derivative_time_s'])} s" if alt.get("derivative_time_s") else ""
-            lines.append(f"  also {alt['form']}: Kc {_f(alt['gain'])}, integral time {_f(alt['integral_time_s'])} s{extra}")
+            lines.append(f"  also {alt['form']}: Kc {_f(alt['gain'])}{kc_unit}, integral time {_f(alt['integral_time_s'])} s{extra}")
         for note in tu.notes:
             lines.append(f"  note: {note}")
     lines.append(f"caution: {tu.caution}")
