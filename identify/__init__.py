@@ -30,7 +30,8 @@ Errors and warnings
 """
 from __future__ import annotations
 
-import importlib
+from ._lazy import lazy_exports
+
 
 from ._errors import (EstimateWarning, HistoryError, IdentificationError, ParameterTypeError,
                       ParameterValueError, PoleprintError, PoleprintWarning, RecordError,
@@ -61,15 +62,4 @@ __all__ = [
     *_LAZY,
 ]
 
-
-def __getattr__(name):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module 'identify' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return sorted(set(globals()) | set(_LAZY))
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)

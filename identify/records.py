@@ -6,7 +6,6 @@ A record is what every estimator takes.  It is built by :func:`identify.read_rec
 from __future__ import annotations
 
 import hashlib
-import math
 from dataclasses import dataclass, field
 
 import numpy as np

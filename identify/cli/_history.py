@@ -241,18 +241,11 @@ def _show(args) -> int:
 
 # -- trend --------------------------------------------------------------------------------
 def _write_atomically(path, data: bytes) -> None:
-    import tempfile
-
+    from .._atomic import write_atomically
     from .._errors import HistoryError
 
-    folder = os.path.dirname(os.path.abspath(path))
     try:
-        fd, tmp = tempfile.mkstemp(prefix=".poleprint-", suffix=".tmp", dir=folder)
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
+        write_atomically(path, data)
     except OSError as exc:
         raise HistoryError(f"cannot write the file ({exc.strerror or exc})", path) from None
 
@@ -281,7 +274,7 @@ def _render_trend(trend) -> str:
         lines.append(table(["mode", "fn (Hz)", "tests", "latest ζ", f"ζ change per year [{pct}]",
                             "level", "projected crossing (indicative)"], rows))
     if others:
-        lines.append(f"other modes (found in fewer tests; see --json): "
+        lines.append("other modes (found in fewer tests; see --json): "
                      + ", ".join(f"{fmt(m.natural_frequency_hz)} Hz in {len(m.test_ids)} test(s)" for m in others))
     for m in principal:
         step = m.step_change or {}

@@ -9,7 +9,8 @@ choice can be overridden by the caller (``start_s``, ``end_s``).
 """
 from __future__ import annotations
 
-import importlib
+from .._lazy import lazy_exports
+
 
 _LAZY = {
     "OffsetTrend": "._trend", "estimate_offset_trend": "._trend",
@@ -19,11 +20,4 @@ _LAZY = {
 
 __all__ = list(_LAZY)
 
-
-def __getattr__(name):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module 'identify.conditioning' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module, __name__), name)
-    globals()[name] = value
-    return value
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)

@@ -17,11 +17,11 @@ import hashlib
 import json
 import os
 import sqlite3
-import tempfile
 import time
 from dataclasses import dataclass, field
 from datetime import date, datetime, timezone
 
+from .._atomic import atomic_writer
 from .._errors import HistoryError, ParameterTypeError, ParameterValueError, PoleprintError
 from ._schema import connect
 
@@ -521,30 +521,12 @@ class HistoryStore:
                     repr(p.decay_rate_per_s),
                     *(repr(v) for v in (ci.real if ci else ("", ""))),
                     ci.level if ci else "", ci.method if ci else "", p.verdict])
-        folder = os.path.dirname(os.path.abspath(csv_path))
         try:
-            fd, tmp = tempfile.mkstemp(prefix=".poleprint-export-", suffix=".csv.tmp", dir=folder)
-        except OSError as exc:
-            raise HistoryError(f"cannot write the CSV file ({exc.strerror or exc})", csv_path) from None
-        try:
-            with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
+            with atomic_writer(csv_path, "w", newline="", encoding="utf-8") as fh:
                 writer = csv.writer(fh)
                 writer.writerow(header)
                 writer.writerows(rows)
-                fh.flush()
-                os.fsync(fh.fileno())
-            os.replace(tmp, csv_path)
         except OSError as exc:
-            try:
-                os.unlink(tmp)
-            except OSError:
-                pass
             raise HistoryError(f"cannot write the CSV file ({exc.strerror or exc})", csv_path) from None
-        except BaseException:
-            try:
-                os.unlink(tmp)
-            except OSError:
-                pass
-            raise
         return len(rows)
 

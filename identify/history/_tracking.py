@@ -100,8 +100,6 @@ def _min_cost_matching(cost, big):
     Dynamic programming over subsets of columns for up to 12 columns (a test rarely has
     more poles); else the Hungarian method from scipy.
     """
-    import numpy as np
-
     n_rows, n_cols = cost.shape
     if n_cols > 12:
         from scipy.optimize import linear_sum_assignment

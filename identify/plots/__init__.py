@@ -13,7 +13,8 @@ matplotlib is imported only when a plot is drawn.
 """
 from __future__ import annotations
 
-import importlib
+from .._lazy import lazy_exports
+
 
 _LAZY = {
     "plot_record": "._record",
@@ -29,15 +30,4 @@ _LAZY = {
 
 __all__ = list(_LAZY)
 
-
-def __getattr__(name):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module 'identify.plots' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module, __name__), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return sorted(set(globals()) | set(_LAZY))
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)

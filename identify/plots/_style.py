@@ -43,7 +43,6 @@ def new_figure(nrows: int = 1, ncols: int = 1, *, height_in: float = 3.2, width_
     The figure is built from :class:`matplotlib.figure.Figure` with an Agg canvas, so no
     interactive backend (and no global pyplot state) is ever touched.
     """
-    import matplotlib
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 

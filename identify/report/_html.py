@@ -9,10 +9,10 @@ import base64
 import html
 import json
 import math
-import os
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
+
+from .._atomic import write_atomically
 
 __all__ = ["write_report", "ReportOutput", "CAUTIONS", "render_report"]
 
@@ -360,7 +360,7 @@ def _result_section(index, result, figures_out, plots_dir, plot_files) -> str:
         figures_out.append(f"{name}: {entry.key}")
         if plots_dir is not None:
             target = Path(plots_dir) / f"{index:02d}-{_slug(Path(name).stem)}-{entry.key}.png"
-            target.write_bytes(png)
+            write_atomically(target, png)
             plot_files.append(target)
     parts.append(_settings_section(getattr(result, "settings", None)))
     parts.append("</section>")
@@ -421,7 +421,7 @@ def _history_section(history, start_index, figures_out, plots_dir, plot_files) -
         figures_out.append(f"history {rig}: trend")
         if plots_dir is not None:
             target = Path(plots_dir) / f"history-{_slug(rig)}-trend.png"
-            target.write_bytes(png)
+            write_atomically(target, png)
             plot_files.append(target)
     parts.append("</section>")
     return "\n".join(parts)
@@ -487,15 +487,5 @@ def write_report(results, path, *, plots_dir=None, title=None, history=None,
     target.parent.mkdir(parents=True, exist_ok=True)
     page, figures, plot_files = render_report(results, title=title, plots_dir=plots_dir,
                                               history=history, failures=failures)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=str(target.parent))
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(page)
-        os.replace(tmp, target)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+    write_atomically(target, page)
     return ReportOutput(target, figures, plot_files, len(results))

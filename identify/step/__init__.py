@@ -14,7 +14,8 @@
 """
 from __future__ import annotations
 
-import importlib
+from .._lazy import lazy_exports
+
 
 _LAZY = {
     "analyse_step": "._analyse",
@@ -28,15 +29,4 @@ _LAZY = {
 
 __all__ = list(_LAZY)
 
-
-def __getattr__(name):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module 'identify.step' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module, __name__), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return sorted(set(globals()) | set(_LAZY))
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)
