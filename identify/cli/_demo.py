@@ -55,7 +55,7 @@ def summary_line(name, job, result) -> str:
         else:
             parts.append(f"{fmt(p.natural_frequency_hz, 5)} Hz "
                          f"{fmt_interval(ci.natural_frequency_hz if ci else None, 5)}, "
-                         f"ζ {fmt(p.damping_ratio, 3)} {fmt_interval(ci.damping_ratio if ci else None, 3)}")
+                         f"ζ {fmt(p.damping_ratio, 4)} {fmt_interval(ci.damping_ratio if ci else None, 4)}")
     model = getattr(result, "model", None)
     extra = ""
     gain = getattr(model, "gain", None) if model is not None else None
