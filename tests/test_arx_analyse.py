@@ -271,7 +271,7 @@ def test_errors_on_bad_input_and_options():
     with pytest.raises(IdentificationError, match="the input is constant"):
         analyse_arx(Record.from_arrays(sample_time_s=TS, y=y, u=np.ones(500)), output="y", input="u")
     with pytest.raises(IdentificationError, match="parameters but only"):
-        analyse_arx(record.segment(0, 1.0), output="y", input="u", orders=(8, 8), delay=1)
+        analyse_arx(record.segment(0, 1.9), output="y", input="u", orders=(15, 15), delay=1)
     with pytest.raises(ParameterValueError, match="output and input are the same channel"):
         analyse_arx(record, output="y", input="Y")
     with pytest.raises(RecordError, match="no column named 'v'"):

@@ -35,6 +35,9 @@ _CRITERIA = ("aic", "aicc", "bic", "fpe")
 
 
 # -- option parsing -----------------------------------------------------------------
+#: Fewest samples an ARX analysis accepts (common practice, no source).
+MIN_SAMPLES = 20
+
 def _parse_orders(orders, has_input):
     if isinstance(orders, str):
         text = orders.strip().lower()
@@ -246,6 +249,10 @@ def analyse_arx(record_or_path, *, output, input=None, orders="auto", delay="aut
     y_all = y_all[lo:hi]
     u_all = None if u_all is None else u_all[lo:hi]
     check_signals(y_all, u_all, 1, 1 if has_input else 0, 0)  # length / constant checks
+    if y_all.size < MIN_SAMPLES:
+        raise IdentificationError(
+            f"only {y_all.size} samples: an ARX fit with an interval needs at least {MIN_SAMPLES} "
+            "(more samples than parameters, with room for the order search)")
     ts0 = record.sample_time_s
     t0 = float(record.time_s[lo])
 
