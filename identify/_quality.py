@@ -81,10 +81,16 @@ def clipping_warning(values, name: str = "signal") -> str | None:
     if v.size < 2 * MIN_RUN:
         return None
     lo, hi = float(v.min()), float(v.max())
-    if lo == hi or _piecewise_constant(v):
-        return None  # constant or switched (steps): flat by design, not clipped
+    if lo == hi:
+        return None  # constant: flat by design, not clipped
+    # a side needs MIN_RUN samples at its extreme value; most records hold each extreme
+    # once, and then nothing below can find clipping (a cheap count settles it)
+    sides = [(word, level, inner) for word, level, inner in (("maximum", hi, np.max), ("minimum", lo, np.min))
+             if np.count_nonzero(v == level) >= MIN_RUN]
+    if not sides or _piecewise_constant(v):
+        return None  # no pile-up at either extreme, or switched (steps): not clipped
     parts = []
-    for word, level, inner in (("maximum", hi, np.max), ("minimum", lo, np.min)):
+    for word, level, inner in sides:
         found = _side(v, level, inner)
         if found:
             count, runs, longest = found

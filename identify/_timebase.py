@@ -125,9 +125,13 @@ def _check(t, resolution_s, line_of, source, name) -> TimeBase:
         raise RecordError(f"time goes backwards at line {_line(line_of, i)} ({t[i]:.10g} s after "
                           f"{t[i - 1]:.10g} s on line {_line(line_of, i - 1)}); stamps must increase",
                           source)
-    median = float(np.median(dt))
-    big = dt > GAP_FACTOR * median
-    if big.any():
+    # no interval beyond GAP_FACTOR x the smallest means none beyond GAP_FACTOR x the
+    # median either: the median (a partial sort of every interval) is then not needed
+    big = None
+    if float(dt.max()) > GAP_FACTOR * float(dt.min()):
+        median = float(np.median(dt))
+        big = dt > GAP_FACTOR * median
+    if big is not None and big.any():
         i = int(np.argmax(big)) + 1
         raise RecordError(
             f"gap in the time base at line {_line(line_of, i)}: {dt[i - 1]:.6g} s since the "

@@ -140,3 +140,17 @@ def test_errors():
         detect_decay_segment(t, x[:-1])
     with pytest.raises(ParameterValueError, match="noise_std"):
         detect_decay_segment(t, x, noise_std=-1.0)
+
+
+def test_hilbert_envelope_matches_scipy():
+    # reference library: |scipy.signal.hilbert(y)| is the analytic-signal magnitude
+    from scipy.signal import hilbert
+
+    from identify.conditioning._segment import _hilbert_envelope
+
+    rng = np.random.default_rng(11)
+    for n in (999, 1000):  # odd and even lengths (Nyquist bin handled)
+        y = rng.normal(size=n) + np.sin(np.arange(n) * 0.3)
+        env, mag = _hilbert_envelope(y)
+        np.testing.assert_allclose(env, np.abs(hilbert(y)), rtol=1e-10, atol=1e-12)
+        np.testing.assert_allclose(mag, np.abs(np.fft.rfft(y)), rtol=1e-12)

@@ -96,15 +96,33 @@ def _mad_std(x):
     return _MAD_TO_STD * float(np.median(np.abs(x - np.median(x))))
 
 
-def _smoothed_envelope(y, dt):
+def _hilbert_envelope(y, spec=None):
+    """``|y + j·H{y}|`` (the analytic signal's magnitude) and the amplitude spectrum ``|Y_k|``.
+
+    The Hilbert transform by the FFT (as ``scipy.signal.hilbert``): ``H{y}`` has the
+    spectrum ``−j·Y_k`` on the positive frequencies and ``+j·Y_k`` on the negative ones,
+    zero at DC and (even length) Nyquist; one real FFT (``spec``, when the caller holds
+    ``rfft(y)`` already) serves both results.
+    """
+    n = y.size
+    if spec is None:
+        spec = np.fft.rfft(y)
+    turned = spec * -1j
+    turned[0] = 0.0
+    if n % 2 == 0:
+        turned[-1] = 0.0
+    quad = np.fft.irfft(turned, n)
+    np.multiply(quad, quad, out=quad)
+    quad += y * y
+    return np.sqrt(quad, out=quad), np.abs(spec)
+
+
+def _smoothed_envelope(y, dt, spec=None):
     """Hilbert envelope of ``y`` averaged over one period of its dominant frequency.
 
     Returns the smoothed envelope and the averaging width in samples.
     """
-    from scipy.signal import hilbert
-
-    env = np.abs(hilbert(y))
-    spec = np.abs(np.fft.rfft(y - np.mean(y)))
+    env, spec = _hilbert_envelope(y, spec)
     spec[0] = 0.0
     k = int(np.argmax(spec))
     if k > 0:
@@ -113,12 +131,34 @@ def _smoothed_envelope(y, dt):
     else:
         width = 1
     if width > 1:  # centred moving average by cumulative sums, shrinking at the edges
-        csum = np.concatenate(([0.0], np.cumsum(env)))
-        idx = np.arange(env.size)
-        lo = np.maximum(idx - width // 2, 0)
-        hi = np.minimum(idx - width // 2 + width, env.size)
-        env = (csum[hi] - csum[lo]) / (hi - lo)
+        env = _moving_average(env, width)
     return env, width
+
+
+def _moving_average(env, width):
+    """Mean of ``env[i - w//2 : i - w//2 + w]`` clipped to the record, for every i.
+
+    By cumulative sums: ``(C[hi] - C[lo]) / (hi - lo)`` with ``C = [0, cumsum(env)]``;
+    the full windows of the interior by slices, the shrinking ones at the edges apart
+    (the same sums and divisions as indexing every window, without index arrays).
+    """
+    n = env.size
+    half = width // 2
+    csum = np.empty(n + 1)
+    csum[0] = 0.0
+    np.cumsum(env, out=csum[1:])
+    out = np.empty(n)
+    # interior: lo = i - half >= 0 and hi = lo + width <= n
+    a, b = half, n - width + half + 1  # i in [a, b)
+    if b > a:
+        np.subtract(csum[width:n + 1], csum[:n + 1 - width], out=out[a:b])
+        out[a:b] /= width
+    edge = np.r_[0:min(a, n), max(b, a):n]
+    if edge.size:
+        lo = np.maximum(edge - half, 0)
+        hi = np.minimum(edge - half + width, n)
+        out[edge] = (csum[hi] - csum[lo]) / (hi - lo)
+    return out
 
 
 def detect_decay_segment(time_s, values, *, start_s=None, end_s=None, noise_std=None) -> DecaySegment:
@@ -218,10 +258,10 @@ def detect_decay_segment(time_s, values, *, start_s=None, end_s=None, noise_std=
                         end_overridden=end_s is not None, **found)
 
 
-def _robust_noise(x):
-    from ._trend import robust_noise_std
+def _robust_noise(x, spectrum=None):
+    from ._trend import _robust_noise_std
 
-    return robust_noise_std(x)
+    return _robust_noise_std(x, spectrum)
 
 
 def _detect(t, x, dt, given_noise):
@@ -264,8 +304,14 @@ def _detect(t, x, dt, given_noise):
                                  f"{ONSET_FACTOR:g} noise std")
             chosen["noise"] = f"median absolute deviation of the {onset + 1} pre-trigger samples" \
                 if given_noise is None else "given"
+    spec = None
     if onset is None:
-        s = given_noise if given_noise is not None else _robust_noise(x)
+        if given_noise is not None:
+            s = given_noise
+        else:  # one transform of the whole record for the noise estimate and the envelope
+            center = float(np.median(x))
+            spec = np.fft.rfft(x - center)
+            s = _robust_noise(x, spec)
         chosen["trigger"] = "none: the record starts in motion (no quiet pre-trigger stretch)"
         chosen["noise"] = "given" if given_noise is not None else \
             "smallest of third-difference, tail and upper-spectrum estimates"
@@ -275,8 +321,9 @@ def _detect(t, x, dt, given_noise):
         base_quiet = base
 
     y = x[first:]
-    center = float(np.median(y))
-    env, width = _smoothed_envelope(y - center, dt)
+    if spec is None:
+        center = float(np.median(y))
+    env, width = _smoothed_envelope(y - center, dt, spec)
     # without a trigger the record starts mid-motion, where the Hilbert envelope has an
     # edge artefact: look for the peak from one smoothing width on
     skip = 0 if onset is not None else min(width, max(env.size - 2, 0))

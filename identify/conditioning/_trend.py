@@ -129,19 +129,26 @@ def robust_noise_std(values) -> float:
     tail, a mode above fs/4 in the periodogram), so the minimum is close to the noise
     whenever one of the three sees mostly noise.
     """
-    x = np.asarray(values, dtype=float)
+    return _robust_noise_std(np.asarray(values, dtype=float))
+
+
+def _robust_noise_std(x, spectrum=None) -> float:
+    """:func:`robust_noise_std` of a float array; ``spectrum`` may give ``rfft(x - c)`` for
+    any constant ``c`` (only its upper half is used, which ``c`` does not change), so a
+    caller that already holds it saves a transform of the whole record."""
     n = x.size
     if n < 8:
         return float(np.std(x))
     estimates = []
-    d3 = np.diff(x, n=3)
-    estimates.append(_MAD_TO_STD * float(np.median(np.abs(d3 - np.median(d3)))) / math.sqrt(20.0))
+    d3 = np.diff(x, n=3)  # a temporary: the medians may reorder it (they do not change it)
+    level = np.median(d3, overwrite_input=True)
+    estimates.append(_MAD_TO_STD * float(np.median(np.abs(d3 - level), overwrite_input=True)) / math.sqrt(20.0))
     tail = x[-max(8, n // 10):]
-    estimates.append(_MAD_TO_STD * float(np.median(np.abs(tail - np.median(tail)))))
+    estimates.append(_MAD_TO_STD * float(np.median(np.abs(tail - np.median(tail)), overwrite_input=True)))
     if n >= 64:
-        spec = np.fft.rfft(x - np.mean(x))
+        spec = np.fft.rfft(x - np.mean(x)) if spectrum is None else spectrum
         upper = spec[len(spec) // 2:-1] if len(spec) > 4 else spec
         power = (upper.real ** 2 + upper.imag ** 2) / n
-        estimates.append(math.sqrt(float(np.median(power)) / math.log(2.0)))
+        estimates.append(math.sqrt(float(np.median(power, overwrite_input=True)) / math.log(2.0)))
     positive = [e for e in estimates if e > 0.0 and math.isfinite(e)]
     return min(positive) if positive else 0.0

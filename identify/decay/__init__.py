@@ -12,7 +12,8 @@ Heavy modules load on first use.
 """
 from __future__ import annotations
 
-import importlib
+from .._lazy import lazy_exports
+
 
 from ._common import MethodEstimate
 
@@ -27,15 +28,4 @@ _LAZY = {
 
 __all__ = ["MethodEstimate", *_LAZY]
 
-
-def __getattr__(name):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module 'identify.decay' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module, __name__), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return sorted(set(globals()) | set(_LAZY))
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)

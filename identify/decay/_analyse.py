@@ -37,15 +37,16 @@ def _load(record_or_path, sample_rate_hz, nan):
 
 def _model_on_segment(answer: MethodEstimate, t, y, drift):
     """The answer's model on the analysed segment (fit terms, or least-squares amplitudes)."""
-    from ._nls import linear_coefficients, model_values
+    from ._nls import linear_coefficients, model_values, model_values_on_grid
 
     if answer.method == "fit" and "terms" in answer.details:
         d = answer.details
-        tau = t - d["t_ref_s"]
         sg = [-x["real"] for x in d["terms"]]
         om = [x["imag"] for x in d["terms"]]
-        return model_values(tau, sg, om, [x["c"] for x in d["terms"]], [x["d"] for x in d["terms"]],
-                            d["offset"], d["drift_per_s"] or 0.0)
+        step = float(t[-1] - t[0]) / max(t.size - 1, 1)  # t is the record's uniform grid
+        return model_values_on_grid(float(t[0]) - d["t_ref_s"], step, t.size, sg, om,
+                                    [x["c"] for x in d["terms"]], [x["d"] for x in d["terms"]],
+                                    d["offset"], d["drift_per_s"] or 0.0)
     tau = t - t[0]
     osc = [p for p in answer.poles if p.imag > 0]
     sg = [p.decay_rate_per_s for p in osc]

@@ -18,7 +18,7 @@ from .._errors import IdentificationError, ParameterValueError
 from .._validate import check_array_1d, check_choice, check_confidence, check_int
 from ._common import MethodEstimate
 
-__all__ = ["fit_damped_sinusoids", "model_basis", "model_values", "model_jacobian",
+__all__ = ["fit_damped_sinusoids", "model_basis", "model_values", "model_values_on_grid", "model_jacobian",
            "linearised_covariance", "linear_coefficients"]
 
 #: records longer than this are fitted on an anti-alias-filtered, decimated copy when
@@ -50,6 +50,37 @@ def model_values(tau, sigma, omega, c, d, offset=0.0, drift_per_s=0.0):
     y = np.full(tau.shape, float(offset)) + float(drift_per_s) * tau
     for sg, om, ci, di in zip(sigma, omega, c, d):
         y += np.exp(-sg * tau) * (ci * np.cos(om * tau) + di * np.sin(om * tau))
+    return y
+
+
+def model_values_on_grid(tau0, step, n, sigma, omega, c, d, offset=0.0, drift_per_s=0.0):
+    """:func:`model_values` on the uniform grid ``τ_k = tau0 + k·step`` (k < n), fast.
+
+    Each mode is ``Re((c − jd)·e^(sτ))`` with ``s = −σ + jω``.  On a grid,
+    ``e^(sτ_k) = e^(s(tau0 + jBΔ))·e^(s·iΔ)`` for ``k = jB + i``: with blocks of
+    ``B ≈ √n`` samples, ``2√n`` complex exponentials and one complex product per sample
+    replace an exponential, a cosine and a sine per sample (the same values to rounding,
+    about 1e-15 relative, derived).
+    """
+    n = int(n)
+    block = int(math.ceil(math.sqrt(n)))
+    if n < 4096:
+        return model_values(tau0 + step * np.arange(n), sigma, omega, c, d, offset, drift_per_s)
+    rows = -(-n // block)
+    y = np.full(n, float(offset))
+    if drift_per_s:
+        y += float(drift_per_s) * (tau0 + step * np.arange(n))
+    i = np.arange(block) * step
+    j = tau0 + np.arange(rows) * (block * step)
+    part, other = np.empty((rows, block)), np.empty((rows, block))
+    for sg, om, ci, di in zip(sigma, omega, c, d):
+        s = complex(-sg, om)
+        head = np.exp(s * i)
+        jump = complex(ci, -di) * np.exp(s * j)
+        np.multiply.outer(jump.real, head.real, out=part)
+        np.multiply.outer(jump.imag, head.imag, out=other)
+        part -= other
+        y += part.ravel()[:n]
     return y
 
 

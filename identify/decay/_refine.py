@@ -222,7 +222,7 @@ def _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted):
     ``EXTEND_RMS`` noise std and no sample beyond ``EXTEND_PEAK``; in the first failing
     block the samples are kept up to the first one beyond ``EXTEND_PEAK`` noise std, or the
     first of two in a row beyond ``EXTEND_EDGE``."""
-    from ._nls import model_values
+    from ._nls import model_values_on_grid
 
     d = fitted.details
     terms = d.get("terms")
@@ -233,9 +233,12 @@ def _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted):
     cc = [x["c"] for x in terms]
     dd = [x["d"] for x in terms]
 
+    ts_grid = float(t_all[-1] - t_all[0]) / max(t_all.size - 1, 1)  # the record's uniform grid
+
     def resid(a, b, step=1):
-        tau = t_all[a:b:step] - d["t_ref_s"]
-        return y_all[a:b:step] - model_values(tau, sg, om, cc, dd, d["offset"], d["drift_per_s"] or 0.0)
+        y = y_all[a:b:step]
+        return y - model_values_on_grid(float(t_all[a]) - d["t_ref_s"], step * ts_grid, y.size, sg, om, cc, dd,
+                                        d["offset"], d["drift_per_s"] or 0.0)
 
     noise = float(np.std(resid(lo, hi, _stride(hi - lo))))
     if not noise > 0:
