@@ -141,3 +141,21 @@ def test_bootstrap_intervals_cover_fn_and_zeta():
         cover_zeta += ci.damping_ratio[0] <= zeta <= ci.damping_ratio[1]
     assert 0.92 <= cover_fn / COVERAGE_TRIALS <= 0.98, cover_fn / COVERAGE_TRIALS
     assert 0.92 <= cover_zeta / COVERAGE_TRIALS <= 0.98, cover_zeta / COVERAGE_TRIALS
+
+
+def test_private_spectrum_helpers_match_scipy_signal():
+    # reference library: scipy.signal.czt, find_peaks and peak_prominences give the same
+    # answers as the module's own copies (kept to spare the import of scipy.signal)
+    from scipy import signal
+
+    from identify.decay._halfpower import _czt, _find_peaks, _prominences
+
+    rng = np.random.default_rng(5)
+    x = rng.normal(size=301)
+    w, a = np.exp(-1j * 0.01), np.exp(1j * 0.3)
+    np.testing.assert_allclose(_czt(x, 120, w, a), signal.czt(x, m=120, w=w, a=a), rtol=1e-9, atol=1e-9)
+    mag = np.abs(np.fft.rfft(x, 1024))
+    mag[100:103] = mag.max() + 1.0  # a flat top
+    peaks, _ = signal.find_peaks(mag)
+    np.testing.assert_array_equal(_find_peaks(mag), peaks)
+    np.testing.assert_allclose(_prominences(mag, peaks), signal.peak_prominences(mag, peaks)[0], rtol=1e-12)

@@ -165,13 +165,65 @@ def _quadratic_crossing(inv, centre, target, omega, direction):
 def _local_transform(x, dt, omega):
     """DTFT ``Σ x_n e^{−jω n Ts}`` of ``x`` on the uniform grid ``omega`` (n from 0).
 
-    Evaluated by the chirp z-transform (``scipy.signal.czt``) — a zoomed, zero-padded
-    FFT — with the points ``z_k = e^{j(ω0 + kΔω)Ts}``.
+    Evaluated by the chirp z-transform — a zoomed, zero-padded FFT — with the points
+    ``z_k = e^{j(ω0 + kΔω)Ts}``.
     """
-    from scipy.signal import czt
-
     step = omega[1] - omega[0]
-    return czt(x, m=omega.size, w=np.exp(-1j * step * dt), a=np.exp(1j * omega[0] * dt))
+    return _czt(x, omega.size, np.exp(-1j * step * dt), np.exp(1j * omega[0] * dt))
+
+
+def _czt(x, m, w, a):
+    """Chirp z-transform ``X_k = Σ_n x_n (a w^{-k})^{-n}``, k < m, by Bluestein's algorithm.
+
+    The same steps as ``scipy.signal.czt`` (importing ``scipy.signal`` costs about a
+    quarter of a second of the command's start-up, more than this whole check):
+    ``nk = (k² + n² − (k − n)²)/2`` turns the sum into a convolution with the chirp
+    ``w^{k²/2}``, done by FFTs of a fast length.  ``tests/test_halfpower.py`` checks it
+    against scipy.
+
+    References
+    ----------
+    Rabiner, Schafer & Rader (1969), The chirp z-transform algorithm, IEEE Trans. Audio
+    Electroacoust. 17(2), 86–92.
+    """
+    from scipy.fft import fft, ifft, next_fast_len
+
+    x = np.asarray(x)
+    n = x.shape[-1]
+    k = np.arange(max(m, n), dtype=np.min_scalar_type(-max(m, n) ** 2))
+    wk2 = w ** (k ** 2 / 2)
+    awk2 = a ** -k[:n] * wk2[:n]
+    nfft = next_fast_len(n + m - 1)
+    fwk2 = fft(1 / np.hstack((wk2[n - 1:0:-1], wk2[:m])), nfft)
+    y = ifft(fwk2 * fft(x * awk2, nfft))
+    return y[..., n - 1:n + m - 1] * wk2[:m]
+
+
+def _find_peaks(x):
+    """Local maxima of ``x`` (the middle of a flat top), as ``scipy.signal.find_peaks(x)``
+    without conditions: a run of equal samples higher than the samples on both sides."""
+    x = np.asarray(x, dtype=float)
+    if x.size < 3:
+        return np.zeros(0, dtype=np.intp)
+    starts = np.flatnonzero(np.concatenate(([True], x[1:] != x[:-1])))
+    ends = np.concatenate((starts[1:], [x.size])) - 1
+    level = x[starts]
+    inner = np.arange(1, starts.size - 1)
+    top = inner[(level[inner - 1] < level[inner]) & (level[inner + 1] < level[inner])]
+    return (starts[top] + ends[top]) // 2
+
+
+def _prominences(x, peaks):
+    """Prominence of each peak (``scipy.signal.peak_prominences`` over the whole signal):
+    its height above the higher of the lowest points on either side before a higher sample."""
+    out = np.empty(len(peaks))
+    for i, p in enumerate(peaks):
+        higher_left = np.flatnonzero(x[:p] > x[p])
+        left = higher_left[-1] + 1 if higher_left.size else 0
+        higher_right = np.flatnonzero(x[p + 1:] > x[p])
+        right = p + 1 + higher_right[0] if higher_right.size else x.size
+        out[i] = x[p] - max(x[left:p + 1].min(), x[p:right].min())
+    return out
 
 
 def _mode_transform(sigma, omega_d, residue, omega, dt, nsamples):
@@ -288,8 +340,6 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     Half-power bandwidth: common practice (e.g. ASTM E756-05 for the loss factor);
     Efron & Tibshirani, *An Introduction to the Bootstrap*, 1993 (basic bootstrap).
     """
-    from scipy import signal
-
     from ..conditioning._trend import robust_noise_std
     from ..poles import pole_with_sample_intervals
 
@@ -322,7 +372,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     mag = np.abs(spec)
     freqs = np.fft.rfftfreq(nfft, dt)
     low = int(np.searchsorted(freqs, 2.0 / duration))  # skip the DC lobe
-    peaks, _ = signal.find_peaks(mag)
+    peaks = _find_peaks(mag)
     peaks = peaks[peaks >= max(low, 1)]
     if peaks.size == 0:
         raise IdentificationError("no resonance: the spectrum has no peak above zero frequency")
@@ -336,7 +386,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         # a peak must stand out of its neighbour's skirt and of the noise: prominence at
         # least half its height and 8 noise levels (noise makes bumps of a few on skirts)
         if chosen:
-            prom = signal.peak_prominences(mag, np.array(chosen))[0]
+            prom = _prominences(mag, np.array(chosen))
             chosen = [p for p, pr in zip(chosen, prom) if pr >= max(0.5 * mag[p], 8.0 * noise_mag)]
         if truncated and chosen:
             # a truncated record has sidelobes every 1/T: keep the larger of any peaks

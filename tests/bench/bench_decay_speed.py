@@ -63,6 +63,8 @@ def _measure(cmd, repeat):
 
 
 def main(directory=None, repeat=3):
+    if directory is not None:
+        os.makedirs(directory, exist_ok=True)
     directory = directory or tempfile.mkdtemp(prefix="poleprint-bench-")
     long_path = os.path.join(directory, "decay_long.csv")
     short_path = os.path.join(directory, "decay_short.csv")
