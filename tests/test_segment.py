@@ -154,3 +154,28 @@ def test_hilbert_envelope_matches_scipy():
         env, mag = _hilbert_envelope(y)
         np.testing.assert_allclose(env, np.abs(hilbert(y)), rtol=1e-10, atol=1e-12)
         np.testing.assert_allclose(mag, np.abs(np.fft.rfft(y)), rtol=1e-12)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_short_pretrigger_is_found(seed):
+    # a quiet stretch of only 1.5 % of the record (shorter than the first 5 % window):
+    # the trigger is still found within 2 samples at 30 dB (issue 2 acceptance)
+    rng = np.random.default_rng(20 + seed)
+    t = np.arange(-0.09, 6.0, 1.0 / FS)
+    t0 = rng.uniform(0.0, 1.0 / FS)
+    tau = np.maximum(t - t0, 0.0)
+    clean = np.where(t >= t0, np.exp(-SIGMA * tau) * np.sin(WD * tau), 0.0)
+    s = _noise_std(1.0, 30.0)
+    seg = detect_decay_segment(t, 0.2 + clean + s * rng.standard_normal(t.size))
+    assert seg.trigger_s is not None
+    assert abs(seg.trigger_s - t0) <= 2.0 / FS
+
+
+def test_slow_oscillation_already_under_way_is_not_a_trigger():
+    # a record starting in motion on a slow mode: the first few samples look quiet, but so
+    # does the next window, so no short pre-trigger is accepted (common practice, no source)
+    rng = np.random.default_rng(31)
+    t = np.arange(0.0, 40.0, 1.0 / FS)
+    x = np.exp(-0.05 * t) * np.cos(2 * math.pi * 0.25 * t) + 1e-3 * rng.standard_normal(t.size)
+    seg = detect_decay_segment(t, x)
+    assert seg.trigger_s is None

@@ -19,6 +19,9 @@ _MAD_TO_STD = 1.482602218505602
 #: The trigger threshold is at least this many noise std from the baseline (and higher
 #: for long quiet stretches, so that noise alone crosses it with < 1 % probability).
 TRIGGER_FACTOR = 5.0
+#: a pre-trigger window shorter than 5 % of the record is accepted only when the next
+#: window of the same length is this many times more active (common practice, no source).
+QUIET_JUMP = 10.0
 #: Walking back from the threshold crossing, a sample within this many noise std of
 #: the baseline is taken as the last quiet sample (the onset).
 ONSET_FACTOR = 3.0
@@ -271,6 +274,19 @@ def _detect(t, x, dt, given_noise):
     b0 = float(np.median(x[:m0]))
     spread0 = _mad_std(x[:m0])
     dev_max = float(np.max(np.abs(x - b0)))
+    # a pre-trigger shorter than the first 5 %: halve the window while it is not quiet,
+    # and accept a shorter one only where the activity jumps right after it (a slow
+    # oscillation already under way looks quiet over a few samples, but so does the next
+    # window of the same length)
+    m = m0
+    while spread0 > QUIET_FRACTION * dev_max and m > 16:
+        m = max(16, m // 2)
+        b = float(np.median(x[:m]))
+        spread = _mad_std(x[:m])
+        dev = float(np.max(np.abs(x - b)))
+        if spread <= QUIET_FRACTION * dev and np.std(x[m:2 * m]) > QUIET_JUMP * max(spread, 1e-300):
+            m0, b0, spread0, dev_max = m, b, spread, dev
+            break
     if dev_max <= 0.0:
         raise IdentificationError("no response above the noise: the record is constant")
     k_thr = max(TRIGGER_FACTOR, NormalDist().inv_cdf(1.0 - 0.005 / n))
