@@ -75,3 +75,19 @@ def test_command_line_start_imports_no_heavy_module():
             "print(','.join(heavy))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == ""
+
+
+def test_closed_pipe_is_quiet():
+    # `poleprint ... | head -1`: the reader closes the pipe early; no traceback
+    # (common practice for command-line tools, no source)
+    code = ("import sys; from identify.cli import main; "
+            "sys.exit(main(['inspect', sys.argv[1], sys.argv[1], sys.argv[1]]))")
+    import pathlib
+    path = pathlib.Path(__file__).resolve().parents[1] / "datasets" / "valve_step.csv"
+    proc = subprocess.Popen([sys.executable, "-c", code, str(path)], stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE)
+    proc.stdout.readline()
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    proc.wait(timeout=60)
+    assert "Traceback" not in err

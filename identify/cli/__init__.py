@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 
 from .._version import __version__
@@ -69,6 +70,12 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         fail_line("interrupted")
         return 130
+    except BrokenPipeError:
+        # the reader of our output went away (e.g. `poleprint ... | head`): stop quietly,
+        # and keep Python from complaining when it flushes stdout at exit
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
 
 
 def _entry() -> None:  # pragma: no cover - console script shim
