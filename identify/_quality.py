@@ -141,13 +141,7 @@ def quantisation_warning(values, name: str = "signal") -> str | None:
 
 def quality_warnings(channels) -> list:
     """Clipping and quantisation warnings for every channel of a record."""
-    out = []
-    for ch in channels:
-        for check in (clipping_warning, quantisation_warning):
-            text = check(ch.values, ch.name)
-            if text:
-                out.append(text)
-    return out
+    return channel_warnings(outputs=channels)
 
 
 def channel_warnings(outputs=(), inputs=()) -> list:
