@@ -1,6 +1,4 @@
 """``python -m identify`` runs the ``poleprint`` command line."""
-import sys
+from .cli import run_command
 
-from .cli import main
-
-sys.exit(main())
+run_command()

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import hashlib
 import os
-import warnings
 
 import numpy as np
 
@@ -200,16 +199,17 @@ def _parse_bulk(raw: bytes, dialect: Dialect, source: str):
     if dialect.trailing_sep:
         options["usecols"] = range(dialect.ncols)
     fast = _fast_options(raw, dialect, options)
+    # no warnings.catch_warnings() here: its filter state is process-wide, and the command
+    # line imports lmfit in another thread meanwhile (identify/cli/_warmup.py).  With
+    # engine="c" and low_memory=False pandas has no fallback or chunk-type warning to give.
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            frame = None
-            if fast is not None:
-                frame = pd.read_csv(io.BytesIO(raw[dialect.data_offset:]), **fast)
-                if not all(dtype in (np.float64, np.int64) for dtype in frame.dtypes):
-                    frame = None  # text, booleans or mixed chunks: parse again as a whole
-            if frame is None:
-                frame = pd.read_csv(io.BytesIO(raw[dialect.data_offset:]), **options)
+        frame = None
+        if fast is not None:
+            frame = pd.read_csv(io.BytesIO(raw[dialect.data_offset:]), **fast)
+            if not all(dtype in (np.float64, np.int64) for dtype in frame.dtypes):
+                frame = None  # text, booleans or mixed chunks: parse again as a whole
+        if frame is None:
+            frame = pd.read_csv(io.BytesIO(raw[dialect.data_offset:]), **options)
     except pd.errors.ParserError as exc:
         raise RecordError(_field_count_problem(raw, dialect) or
                           f"cannot parse the rows: {str(exc).strip().splitlines()[-1]}", source) from None

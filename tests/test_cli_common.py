@@ -91,3 +91,42 @@ def test_closed_pipe_is_quiet():
     err = proc.stderr.read().decode()
     proc.wait(timeout=60)
     assert "Traceback" not in err
+
+
+def test_whole_process_run_prints_library_warnings_on_one_line():
+    # run_command (console script, python -m identify): a library's warnings.warn becomes
+    # one "poleprint: warning:" line; the status is the process's exit status
+    code = ("import warnings; from identify import cli; "
+            "cli.main = lambda argv=None: (warnings.warn('first line\\n  second line'), 3)[1]; "
+            "cli.run_command()")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert proc.returncode == 3
+    assert proc.stderr == "poleprint: warning: UserWarning: first line second line\n"
+
+
+def test_whole_process_run_of_the_module_gives_status_and_output(tmp_path):
+    # python -m identify: the same status and output as main(), and nothing on stderr
+    # from the shortened exit (no "Exception ignored", no traceback)
+    import pathlib
+    path = pathlib.Path(__file__).resolve().parents[1] / "datasets" / "bracket_ringdown.csv"
+    ok = subprocess.run([sys.executable, "-m", "identify", "decay", "--json", str(path)],
+                        capture_output=True, text=True)
+    assert ok.returncode == EXIT_OK and json.loads(ok.stdout)["poles"]
+    assert "Exception ignored" not in ok.stderr and "Traceback" not in ok.stderr
+    bad = tmp_path / "bad.csv"
+    bad.write_text("time,accel\n0,1\n")
+    failed = subprocess.run([sys.executable, "-m", "identify", "decay", str(bad)], capture_output=True, text=True)
+    assert failed.returncode == EXIT_USAGE and failed.stdout == ""
+    assert len(failed.stderr.strip().splitlines()) == 1 and failed.stderr.startswith("poleprint: error: ")
+
+
+def test_whole_process_run_with_closed_pipe_is_quiet():
+    import pathlib
+    path = pathlib.Path(__file__).resolve().parents[1] / "datasets" / "valve_step.csv"
+    proc = subprocess.Popen([sys.executable, "-m", "identify", "inspect", str(path), str(path), str(path)],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    proc.stdout.readline()
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    proc.wait(timeout=60)
+    assert "Traceback" not in err and "Exception ignored" not in err

@@ -143,17 +143,35 @@ def test_errors():
 
 
 def test_hilbert_envelope_matches_scipy():
-    # reference library: |scipy.signal.hilbert(y)| is the analytic-signal magnitude
+    # reference library: |scipy.signal.hilbert(y, N)[:n]| is the magnitude of the analytic
+    # signal of y zero-padded to N samples; ours pads to the next 5-smooth length
     from scipy.signal import hilbert
 
+    from identify._fftlen import fast_length
     from identify.conditioning._segment import _hilbert_envelope
 
     rng = np.random.default_rng(11)
-    for n in (999, 1000):  # odd and even lengths (Nyquist bin handled)
+    # odd and even lengths (Nyquist bin handled): 1000 needs no padding; 997 (prime) is
+    # padded to 1000, 1001 and 1019 (prime) to 1024
+    for n in (997, 1000, 1001, 1019):
         y = rng.normal(size=n) + np.sin(np.arange(n) * 0.3)
         env, mag = _hilbert_envelope(y)
-        np.testing.assert_allclose(env, np.abs(hilbert(y)), rtol=1e-10, atol=1e-12)
-        np.testing.assert_allclose(mag, np.abs(np.fft.rfft(y)), rtol=1e-12)
+        nfft = fast_length(n)
+        assert nfft >= n
+        np.testing.assert_allclose(env, np.abs(hilbert(y, nfft)[:n]), rtol=1e-10, atol=1e-12)
+        np.testing.assert_allclose(mag, np.abs(np.fft.rfft(y, nfft)), rtol=1e-12)
+    assert fast_length(1000) == 1000 and fast_length(999) == 1000
+
+
+def test_fast_length_matches_scipy_on_5_smooth_lengths():
+    # reference library: scipy.fft.next_fast_len(n, real=True) returns the smallest
+    # 2^a 3^b 5^c >= n for real transforms (scipy's real FFT uses only these factors)
+    from scipy.fft import next_fast_len
+
+    from identify._fftlen import fast_length
+
+    for n in list(range(1, 2000)) + [1_995_001, 10_000_019, 2 ** 21 + 1]:
+        assert fast_length(n) == next_fast_len(n, real=True), n
 
 
 @pytest.mark.parametrize("seed", [0, 1, 2])

@@ -58,6 +58,11 @@ def run(args) -> int:
         raise CliUsageError(f"--sample-rate must be > 0 Hz; got {args.sample_rate_hz!r}")
     from ..decay._analyse import analyse_decay
 
+    if args.method in ("auto", "fit"):  # the fit's library loads while the first file is read
+        from ._warmup import warm_up
+
+        warm_up("lmfit")
+
     column = args.column
     if column is not None and column.strip().lstrip("-").isdigit():
         column = int(column)

@@ -11,6 +11,7 @@ from statistics import NormalDist
 import numpy as np
 
 from .._errors import IdentificationError, ParameterValueError
+from .._fftlen import fast_length
 from .._validate import check_array_1d, check_positive
 
 __all__ = ["DecaySegment", "detect_decay_segment"]
@@ -102,19 +103,23 @@ def _mad_std(x):
 def _hilbert_envelope(y, spec=None):
     """``|y + j·H{y}|`` (the analytic signal's magnitude) and the amplitude spectrum ``|Y_k|``.
 
-    The Hilbert transform by the FFT (as ``scipy.signal.hilbert``): ``H{y}`` has the
+    The Hilbert transform by the FFT (as ``scipy.signal.hilbert(y, N)``): ``H{y}`` has the
     spectrum ``−j·Y_k`` on the positive frequencies and ``+j·Y_k`` on the negative ones,
-    zero at DC and (even length) Nyquist; one real FFT (``spec``, when the caller holds
-    ``rfft(y)`` already) serves both results.
+    zero at DC and (even length) Nyquist.  The record is zero-padded to
+    ``N = fast_length(y.size)`` (a few per mille longer at most, so that a length with a
+    large prime factor does not cost a slow transform) and the first ``y.size`` samples
+    kept; one real FFT (``spec = rfft(y, N)``, when the caller holds it already) serves
+    both results.  The spectrum's bin k is the frequency ``k / N`` cycles per sample.
     """
     n = y.size
+    nfft = fast_length(n)
     if spec is None:
-        spec = np.fft.rfft(y)
+        spec = np.fft.rfft(y, nfft)
     turned = spec * -1j
     turned[0] = 0.0
-    if n % 2 == 0:
+    if nfft % 2 == 0:
         turned[-1] = 0.0
-    quad = np.fft.irfft(turned, n)
+    quad = np.fft.irfft(turned, nfft)[:n]
     np.multiply(quad, quad, out=quad)
     quad += y * y
     return np.sqrt(quad, out=quad), np.abs(spec)
@@ -129,7 +134,7 @@ def _smoothed_envelope(y, dt, spec=None):
     spec[0] = 0.0
     k = int(np.argmax(spec))
     if k > 0:
-        period = y.size / k  # samples per period of the dominant line
+        period = fast_length(y.size) / k  # samples per period of the dominant line
         width = int(min(max(round(period), 1), max(y.size // 10, 1)))
     else:
         width = 1
@@ -326,7 +331,7 @@ def _detect(t, x, dt, given_noise):
             s = given_noise
         else:  # one transform of the whole record for the noise estimate and the envelope
             center = float(np.median(x))
-            spec = np.fft.rfft(x - center)
+            spec = np.fft.rfft(x - center, fast_length(x.size))
             s = _robust_noise(x, spec)
         chosen["trigger"] = "none: the record starts in motion (no quiet pre-trigger stretch)"
         chosen["noise"] = "given" if given_noise is not None else \

@@ -12,6 +12,7 @@ import numpy as np
 
 from .._errors import ParameterValueError
 from .._validate import check_array_1d
+from .._fftlen import fast_length
 
 __all__ = ["OffsetTrend", "estimate_offset_trend", "robust_noise_std"]
 
@@ -133,9 +134,12 @@ def robust_noise_std(values) -> float:
 
 
 def _robust_noise_std(x, spectrum=None) -> float:
-    """:func:`robust_noise_std` of a float array; ``spectrum`` may give ``rfft(x - c)`` for
-    any constant ``c`` (only its upper half is used, which ``c`` does not change), so a
-    caller that already holds it saves a transform of the whole record."""
+    """:func:`robust_noise_std` of a float array; ``spectrum`` may give
+    ``rfft(x - c, fast_length(x.size))`` for any constant ``c`` (only its upper half is
+    used, which ``c`` does not change), so a caller that already holds it saves a
+    transform of the whole record.  The zero-padding to a fast length leaves each bin's
+    expected power at ``n·σ²`` for white noise of variance σ², so ``power / n`` is still
+    the noise variance."""
     n = x.size
     if n < 8:
         return float(np.std(x))
@@ -146,7 +150,7 @@ def _robust_noise_std(x, spectrum=None) -> float:
     tail = x[-max(8, n // 10):]
     estimates.append(_MAD_TO_STD * float(np.median(np.abs(tail - np.median(tail)), overwrite_input=True)))
     if n >= 64:
-        spec = np.fft.rfft(x - np.mean(x)) if spectrum is None else spectrum
+        spec = np.fft.rfft(x - np.mean(x), fast_length(n)) if spectrum is None else spectrum
         upper = spec[len(spec) // 2:-1] if len(spec) > 4 else spec
         power = (upper.real ** 2 + upper.imag ** 2) / n
         estimates.append(math.sqrt(float(np.median(power, overwrite_input=True)) / math.log(2.0)))

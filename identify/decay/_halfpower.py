@@ -47,7 +47,7 @@ def _sigma_from_half_width(half_width, dt):
         return -np.log(r) / dt
 
 
-def _half_power_points(spectra, omega, dt, nsamples, iterations=None):
+def _half_power_points(spectra, omega, dt, nsamples, iterations=None, start=None):
     """Half-power estimate on each row of ``spectra`` (complex, on the grid ``omega``).
 
     From the current pole and the spectrum at ωd the residue R is estimated; then the
@@ -57,6 +57,10 @@ def _half_power_points(spectra, omega, dt, nsamples, iterations=None):
     record length) — leaving the one-sided Lorentzian of an untruncated decay — and the
     −3 dB points are found again, ``iterations`` times.
 
+    ``start``, a tuple of arrays (σ, ωd, R) from an earlier call on a nearly equal
+    spectrum, resumes the iteration from there instead of from R = 0 (the same fixed
+    point, reached in fewer rounds).
+
     Returns arrays (σ, ωd, ω1, ω2, residue R, correction) — the correction being what
     was subtracted from each row; NaN where a −3 dB point is missing.
     """
@@ -65,10 +69,41 @@ def _half_power_points(spectra, omega, dt, nsamples, iterations=None):
     nrow, ncol = rows.shape
     cols = np.arange(ncol)
     step = omega[1] - omega[0]
-    corrected = rows
-    residue = np.zeros(nrow, dtype=complex)
-    correction = np.zeros_like(rows)
     r_ = np.arange(nrow)
+
+    def corrections(sigma, omega_d, ok, fallback, residue):
+        # residue of the pole from the (uncorrected) spectrum at ωd, less the mirror and
+        # the removed mean of the previous round; every term is the transform of the
+        # *recorded* (truncated, n < N) decay
+        safe_wd = np.where(ok, omega_d, fallback)
+        fi = np.clip((safe_wd - omega[0]) / step, 0.0, ncol - 1.000001)
+        i0 = fi.astype(int)
+        frac = fi - i0
+        x_wd = rows[r_, i0] * (1.0 - frac) + rows[r_, i0 + 1] * frac
+        r = np.exp(-np.where(ok, sigma, 0.0) * dt)
+        z = r * np.exp(1j * safe_wd * dt)
+        e_wd = np.exp(-1j * safe_wd * dt)
+        known = x_wd - _truncated(np.conj(residue), np.conj(z), e_wd, nsamples)
+        known = known + _mean_of_mode(residue, z, nsamples) * _dirichlet(e_wd, nsamples)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            residue = np.where(ok, known * (1.0 - r) / (1.0 - r ** nsamples), 0.0)
+        e = np.exp(-1j * omega * dt)[None, :]
+        zc, rc = z[:, None], residue[:, None]
+        mirror = _truncated(np.conj(rc), np.conj(zc), e, nsamples)
+        tail = rc * (zc * e) ** nsamples / (1.0 - zc * e)  # the main term's unrecorded tail
+        mean = _mean_of_mode(residue, z, nsamples)[:, None] * _dirichlet(e, nsamples)
+        corrected = rows - mirror + mean + tail
+        return residue, corrected, rows - corrected
+
+    if start is None:
+        corrected = rows
+        residue = np.zeros(nrow, dtype=complex)
+        correction = np.zeros_like(rows)
+    else:
+        s0, wd0, residue = (np.asarray(v).reshape(nrow) for v in start)
+        ok0 = np.isfinite(s0) & np.isfinite(wd0)
+        residue, corrected, correction = corrections(s0, wd0, ok0, np.full(nrow, omega[ncol // 2]),
+                                                     np.where(ok0, residue, 0.0).astype(complex))
     for it in range(iterations + 1):
         # work on the inverse power Q = 1/|X|², which is quadratic in ω − ωd for a
         # Lorentzian, so quadratic interpolation of Q is exact to high order
@@ -101,28 +136,7 @@ def _half_power_points(spectra, omega, dt, nsamples, iterations=None):
                           (np.abs(omega_d - previous[1]) <= 1e-12 * omega_d)
             if np.all(settled | ~ok):
                 break
-        # residue of the pole from the (uncorrected) spectrum at ωd, less the mirror and
-        # the removed mean of the previous round; every term is the transform of the
-        # *recorded* (truncated, n < N) decay
-        safe_wd = np.where(ok, omega_d, omega[ipk])
-        fi = np.clip((safe_wd - omega[0]) / step, 0.0, ncol - 1.000001)
-        i0 = fi.astype(int)
-        frac = fi - i0
-        x_wd = rows[r_, i0] * (1.0 - frac) + rows[r_, i0 + 1] * frac
-        r = np.exp(-np.where(ok, sigma, 0.0) * dt)
-        z = r * np.exp(1j * safe_wd * dt)
-        e_wd = np.exp(-1j * safe_wd * dt)
-        known = x_wd - _truncated(np.conj(residue), np.conj(z), e_wd, nsamples)
-        known = known + _mean_of_mode(residue, z, nsamples) * _dirichlet(e_wd, nsamples)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            residue = np.where(ok, known * (1.0 - r) / (1.0 - r ** nsamples), 0.0)
-        e = np.exp(-1j * omega * dt)[None, :]
-        zc, rc = z[:, None], residue[:, None]
-        mirror = _truncated(np.conj(rc), np.conj(zc), e, nsamples)
-        tail = rc * (zc * e) ** nsamples / (1.0 - zc * e)  # the main term's unrecorded tail
-        mean = _mean_of_mode(residue, z, nsamples)[:, None] * _dirichlet(e, nsamples)
-        corrected = rows - mirror + mean + tail
-        correction = rows - corrected
+        residue, corrected, correction = corrections(sigma, omega_d, ok, omega[ipk], residue)
     return sigma, omega_d, w1, w2, residue, correction
 
 
@@ -465,7 +479,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
                     if j != i:
                         others += _mode_transform(other[4], other[5], other[8], omega, dt, n)
                 sig_i, wd_i, w1_i, w2_i, res_i, corr_i = _half_power_points(
-                    (local - others)[None, :], omega, dt, n)
+                    (local - others)[None, :], omega, dt, n, start=(item[4], item[5], item[8]))
                 if not (np.isfinite(sig_i[0]) and np.isfinite(wd_i[0])):
                     updated.append(item)
                     continue

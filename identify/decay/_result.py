@@ -121,12 +121,20 @@ class DecayResult:
             for name, est in row.get("estimates", {}).items():
                 if est is None:
                     continue
+                if est.get("own_warnings"):  # the method doubts its own interval here
+                    remark = "doubtful here: " + ", ".join(est["own_warnings"])
+                elif est.get("agree") is False:
+                    remark = "intervals do not overlap"
+                else:
+                    remark = "intervals overlap"
                 checks.append([row["mode"], name, fmt(est["natural_frequency_hz"], 6),
                                fmt_interval(est.get("natural_frequency_ci_hz"), 6),
-                               fmt(est["damping_ratio"], 4), fmt_interval(est.get("damping_ratio_ci"), 4)])
+                               fmt(est["damping_ratio"], 4), fmt_interval(est.get("damping_ratio_ci"), 4),
+                               remark])
         if checks:
             lines.append("cross-checks:")
-            lines.append(table(["mode", "method", "fn [Hz]", "fn CI [Hz]", "zeta [-]", "zeta CI"], checks))
+            lines.append(table(["mode", "method", "fn [Hz]", "fn CI [Hz]", "zeta [-]", "zeta CI", "remark"],
+                               checks))
         if warnings:
             lines.extend(f"warning: {w}" for w in self.warnings)
         lines.append("caution: estimates from one record, not a clearance; "

@@ -221,16 +221,19 @@ def _methods_table(methods) -> str:
         return ""
     rows = []
     for name, est in methods.items():
+        # the method's own warnings, by their keys (the full lines are in the warnings list)
+        own = sorted({str(w).split(":", 1)[0] for w in getattr(est, "warnings", ()) or ()})
+        note = _e(", ".join(own)) if own else "-"
         for p in getattr(est, "poles", ()) or ():
             ci = getattr(p, "ci", None)
             rows.append([_e(name), _num(p.natural_frequency_hz, 5),
                          _interval(ci.natural_frequency_hz if ci else None, 5),
-                         _num(p.damping_ratio), _interval(ci.damping_ratio if ci else None)])
+                         _num(p.damping_ratio), _interval(ci.damping_ratio if ci else None), note])
         if not getattr(est, "poles", None):
-            rows.append([_e(name), "-", "-", "-", "-"])
+            rows.append([_e(name), "-", "-", "-", "-", note])
     return ("<h3>Each method's estimate (cross-checks)</h3>"
             + _table(["method", "natural frequency (Hz)", "interval", "damping ratio (-)",
-                      "interval"], rows, numeric=(1, 3)))
+                      "interval", "method's own warnings"], rows, numeric=(1, 3)))
 
 
 def _validation_section(validation) -> str:
