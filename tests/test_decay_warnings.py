@@ -71,8 +71,9 @@ def test_large_drift():
 
 def test_methods_disagree():
     # The warning compares each cross-check's interval with the answer's (widened to at
-    # least the answer's width, docs/decay.md).  Tested on constructed estimates: on the
-    # synthetic records of this suite the calibrated cross-checks agree with the fit.
+    # least the answer's width, docs/decay.md).  The rules on constructed estimates here;
+    # end to end on a friction decay in test_methods_disagree_on_a_friction_decay (on the
+    # linear synthetic records of this suite the calibrated cross-checks agree).
     def pole(fn_ci, z_ci):
         ci = PoleIntervals(0.95, "delta", (-1.1, -0.9), (62.0, 63.0), fn_ci, z_ci)
         return Pole(-1.0, 62.8, 1.0, ci)
@@ -94,6 +95,69 @@ def test_methods_disagree():
     seed = MethodEstimate("pencil", other.poles)
     rows, text = _consensus(answer, {"fit": answer, "halfpower": doubtful, "pencil": seed})
     assert text == [] and rows[0]["estimates"]["halfpower"]["own_warnings"] == ["few spectral lines"]
+
+
+def _friction_decay(dry, *, seed, fs=1000.0, duration=6.0, fn=10.0, zeta=0.01, snr_db=40.0):
+    """One mode with viscous damping ζ plus dry (Coulomb) friction of acceleration ``dry``
+    (m/s², smoothed sign by tanh(v / 1 mm/s)), released from x = 1, integrated by scipy's
+    DOP853 to 1e-10.  Dry friction takes 4·dry/ω² of amplitude per cycle, a straight-line
+    envelope instead of an exponential one (Den Hartog, *Mechanical Vibrations*, from
+    memory): no sum of exponentials fits it exactly."""
+    from scipy.integrate import solve_ivp
+
+    w = 2 * np.pi * fn
+
+    def rhs(_, state):
+        x, v = state
+        return [v, -2 * zeta * w * v - w * w * x - dry * np.tanh(v / 1e-3)]
+
+    t = np.arange(int(duration * fs)) / fs
+    y = solve_ivp(rhs, (0.0, t[-1]), [1.0, 0.0], t_eval=t, rtol=1e-10, atol=1e-12, method="DOP853").y[0]
+    noise = np.sqrt(0.5 / 10 ** (snr_db / 10))
+    y = y + np.random.default_rng(seed).normal(0.0, noise, y.size)
+    return Record.from_arrays(t, displacement=y, units={"displacement": "m"})
+
+
+@pytest.mark.parametrize("seed", [0, 1])
+def test_methods_disagree_on_a_friction_decay(seed):
+    # end to end: a decay the linear model cannot explain (dry friction) makes the
+    # half-power cross-check disagree with the fit, and the fit split the one mode into
+    # a pair closer than the record resolves; the same mode without friction raises neither
+    result = analyse_decay(_friction_decay(2.0, seed=seed))
+    keys = _keys(result)
+    assert "methods disagree" in keys and "unresolved pair" in keys
+    disagree = [w for w in result.warnings if w.startswith("methods disagree")]
+    assert all("halfpower ζ" in w and "do not overlap" in w for w in disagree)
+    assert any(row["agree"] is False for row in result.consensus)
+    linear = analyse_decay(_friction_decay(0.0, seed=seed))
+    assert linear.warnings == ()
+    assert len(linear.poles) == 1 and _near(linear, 10.0, rel=0.001)
+
+
+def test_unresolved_pair_not_raised_for_resolved_close_modes():
+    # two modes at a frequency ratio of 1.05 over a record 4 beat periods long: resolved
+    rec, _, _ = make_record([(10.0, 0.002, 1.0, 0.3), (10.5, 0.002, 1.0, 1.0)], fs=200.0, n=1600,
+                            snr_db=40, seed=5)
+    result = analyse_decay(rec)
+    assert len(result.poles) == 2 and "unresolved pair" not in _keys(result)
+
+
+def test_cross_check_table_marks_each_methods_standing():
+    # the text table's remark column and the report's "own warnings" column: a cross-check
+    # that doubts its own interval says so next to its numbers
+    from identify.report._html import _methods_table
+
+    short = analyse_decay(make_record([(10.0, 0.0005, 1.0, 0.3)], fs=500.0, n=500, snr_db=50, seed=6)[0])
+    text = short.summary()
+    rows = [line for line in text.splitlines() if line.startswith("1 ") and "halfpower" in line]
+    assert len(rows) == 1 and "doubtful here:" in rows[0]
+    assert "record too short" in rows[0] or "few spectral lines" in rows[0]
+    html = _methods_table(short.methods)
+    assert "method&#x27;s own warnings" in html or "method's own warnings" in html
+    assert "record too short" in html or "few spectral lines" in html
+    clean = analyse_decay(make_record([(10.0, 0.02, 1.0, 0.3)], fs=200.0, n=2000, snr_db=40, seed=1)[0])
+    checks = [line for line in clean.summary().splitlines() if line.startswith("1 ")][1:]
+    assert checks and all(line.endswith("intervals overlap") for line in checks)
 
 
 def test_damping_interval_includes_zero():

@@ -147,6 +147,16 @@ def _checks(answer, duration, noise, snr_db, fs, y, t, methods, baseline, baseli
         if p.damped_frequency_hz > NYQUIST_FRACTION * nyq:
             out.append(f"near Nyquist: mode at {p.natural_frequency_hz:.4g} Hz is above {NYQUIST_FRACTION:.0%} of the "
                        f"Nyquist frequency {nyq:.4g} Hz; it may be aliased (sample faster)")
+    # two poles closer than the Rayleigh resolution 1/T: a sum of exponentials can follow a
+    # non-exponential envelope (friction, amplitude-dependent damping) this way
+    osc = sorted((p for p in answer.poles if p.imag > 0), key=lambda p: p.damped_frequency_hz)
+    if duration > 0:
+        for a, b in zip(osc, osc[1:]):
+            if b.damped_frequency_hz - a.damped_frequency_hz < 1.0 / duration:
+                out.append(f"unresolved pair: modes at {a.natural_frequency_hz:.6g} Hz and "
+                           f"{b.natural_frequency_hz:.6g} Hz are closer than the record's frequency "
+                           f"resolution 1/T = {1.0 / duration:.3g} Hz; they may be one mode whose damping or "
+                           f"frequency changes with amplitude (a nonlinear decay) rather than two modes")
     fit = methods.get("fit")
     a_max = max((p.amplitude or 0.0) for p in answer.poles)
     drift_change = None
