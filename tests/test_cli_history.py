@@ -35,7 +35,8 @@ def run_cli(argv) -> int:
 class FakeResult:
     def __init__(self, path, zeta):
         self.source = str(path)
-        self.sha256 = hashlib.sha256(open(path, "rb").read()).hexdigest()
+        with open(path, "rb") as fh:
+            self.sha256 = hashlib.sha256(fh.read()).hexdigest()
         s = pole_from_frequency_damping(12.0, zeta)
         self.poles = (pole_with_delta_intervals(s, np.diag([(0.0008 * abs(s)) ** 2, 0.01]), 0.95),)
         self.warnings = ()
@@ -54,7 +55,8 @@ def fake_jobs(monkeypatch):
         seen.append(args)
 
         def analyse(path):
-            text = open(path).read().splitlines()
+            with open(path) as fh:
+                text = fh.read().splitlines()
             if text[1] == "bad":
                 raise RecordError("no numeric data rows")
             return FakeResult(path, float(text[1]))
@@ -163,7 +165,8 @@ def test_export_csv(tmp_path, capsys, fake_jobs):
     target = tmp_path / "out.csv"
     assert run_cli(["history", "export", "--rig", "r", "--csv", str(target), "--db", db]) == EXIT_OK
     assert "wrote 4 row(s)" in capsys.readouterr().out
-    rows = list(csv.DictReader(open(target, newline="")))
+    with open(target, newline="") as fh:
+        rows = list(csv.DictReader(fh))
     assert [r["test_id"] for r in rows] == ["1", "2", "3", "4"]
     assert float(rows[0]["damping_ratio"]) == pytest.approx(declining(4)[0])
 

@@ -8,8 +8,10 @@ Ratios measured in the same run (targets from issue 3):
             SHORT being the first 10,000 samples of the same record           (≤ 3)
 * peak memory (max resident set) of the decay command on LONG                 (≤ 600 MB)
 
-Each command runs in a fresh process REPEAT times (median wall time).  The records are
-written once to a temporary directory (or the directory given as the first argument).
+Each command runs in a fresh process REPEAT times (median wall time), the four commands
+taking turns round by round.  The records are written once to a temporary directory (or
+the directory given as the first argument).  A last line gives the same marginal cost in
+one warm process (imports done), where nothing overlaps: no target, for the record.
 
 Run: python tests/bench/bench_decay_speed.py [DIR] [REPEAT]   (not part of pytest)
 """
@@ -70,19 +72,26 @@ def _write(path, t, y):
             fh.write("\n")
 
 
-def _measure(cmd, repeat):
-    times, peaks = [], []
+def _measure_interleaved(commands, repeat):
+    """Median wall time and largest peak memory of each command, over ``repeat`` rounds.
+
+    Each round runs every command once, in turn, so that a change in the machine's load
+    during the benchmark touches all of them alike instead of one block of runs.
+    """
+    times = {name: [] for name in commands}
+    peaks = {name: [] for name in commands}
     for _ in range(repeat):
-        out = subprocess.run([sys.executable, "-c", _RUNNER, *cmd], capture_output=True, text=True,
-                             check=True, cwd=ROOT).stdout.split()
-        if out[2] != "0":
-            raise RuntimeError(f"{' '.join(cmd)} exited with {out[2]}")
-        times.append(float(out[0]))
-        peaks.append(int(out[1]) / 1024.0)  # ru_maxrss is in KiB on Linux
-    return statistics.median(times), max(peaks)
+        for name, cmd in commands.items():
+            out = subprocess.run([sys.executable, "-c", _RUNNER, *cmd], capture_output=True, text=True,
+                                 check=True, cwd=ROOT).stdout.split()
+            if out[2] != "0":
+                raise RuntimeError(f"{' '.join(cmd)} exited with {out[2]}")
+            times[name].append(float(out[0]))
+            peaks[name].append(int(out[1]) / 1024.0)  # ru_maxrss is in KiB on Linux
+    return {name: (statistics.median(times[name]), max(peaks[name])) for name in commands}
 
 
-def main(directory=None, repeat=3):
+def main(directory=None, repeat=11):
     if directory is not None:
         os.makedirs(directory, exist_ok=True)
     directory = directory or tempfile.mkdtemp(prefix="poleprint-bench-")
@@ -94,10 +103,11 @@ def main(directory=None, repeat=3):
         _write(short_path, t[:N_SHORT], y[:N_SHORT])
     poleprint = [sys.executable, "-m", "identify", "decay", "--json"]
     pandas_cmd = [sys.executable, "-c", "import pandas, sys; pandas.read_csv(sys.argv[1])"]
-    d_long, mem_long = _measure(poleprint + [long_path], repeat)
-    d_short, _ = _measure(poleprint + [short_path], repeat)
-    p_long, mem_pandas = _measure(pandas_cmd + [long_path], repeat)
-    p_short, _ = _measure(pandas_cmd + [short_path], repeat)
+    got = _measure_interleaved({"decay_long": poleprint + [long_path], "decay_short": poleprint + [short_path],
+                                "pandas_long": pandas_cmd + [long_path], "pandas_short": pandas_cmd + [short_path]},
+                               repeat)
+    (d_long, mem_long), (d_short, _) = got["decay_long"], got["decay_short"]
+    (p_long, mem_pandas), (p_short, _) = got["pandas_long"], got["pandas_short"]
     result = json.loads(subprocess.run(poleprint + [long_path], capture_output=True, text=True,
                                        cwd=ROOT).stdout)
     whole = d_long / p_long
@@ -122,4 +132,4 @@ def main(directory=None, repeat=3):
 
 
 if __name__ == "__main__":
-    main(sys.argv[1] if len(sys.argv) > 1 else None, int(sys.argv[2]) if len(sys.argv) > 2 else 3)
+    main(sys.argv[1] if len(sys.argv) > 1 else None, int(sys.argv[2]) if len(sys.argv) > 2 else 11)
