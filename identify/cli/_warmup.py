@@ -29,7 +29,7 @@ import threading
 
 __all__ = ["warm_up", "JOB_MODULES", "SWITCH_INTERVAL_S"]
 
-#: What the decay job imports before their first fit, at module level or inside
+#: What the decay job imports before its first fit, at module level or inside
 #: functions (read_record's pandas and codecs included).
 JOB_MODULES = (
     "numpy.fft", "pandas", "encodings.latin_1", "encodings.utf_8_sig", "identify._jsonable",
