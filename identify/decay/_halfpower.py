@@ -475,6 +475,24 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
         raise IdentificationError("no resonance with half-power points: "
                                   + "; ".join(w.split(": ", 1)[1] for w in warnings if w.startswith("no half")))
 
+    # a resonance whose decay falls only to more than RECORDED_MAX within the record is
+    # not evaluated: its −3 dB band is then set by the record's length (the window), and
+    # the tail completion cannot tell damping from truncation — such estimates came out
+    # 1.5–60 times too high, with intervals that say nothing of it (tests/test_halfpower.py)
+    too_short = [math.exp(-item[4] * duration) > RECORDED_MAX for item in found]
+    short = [item for item, drop in zip(found, too_short) if drop]
+    found = [item for item, drop in zip(found, too_short) if not drop]
+    # (σ from a window-widened band is too high, so the recorded fraction is at least this)
+    fractions = [f"near {item[1]:.4g} Hz the decay falls only to {100 * math.exp(-item[4] * duration):.0f} % "
+                 f"or more within the record" for item in short]
+    why = (f"({100 * RECORDED_MAX:.0f} % or less needed); the half-power band is then set by the "
+           f"record's length, not by damping")
+    reasons = [f"record too short: {text} {why}; not evaluated" for text in fractions]
+    if not found:
+        raise IdentificationError("record too short for the half-power bandwidth: "
+                                  + ", ".join(fractions) + " " + why)
+    warnings.extend(reasons)
+
     # with several modes, each mode's spectrum also holds the others' skirts: subtract
     # their modelled transforms (both conjugate terms, less their part of the removed
     # mean) and estimate again
@@ -512,23 +530,6 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     else:
         noise = noise_resid
 
-    # a resonance whose decay falls only to more than RECORDED_MAX within the record is
-    # not evaluated: its −3 dB band is then set by the record's length (the window), and
-    # the tail completion cannot tell damping from truncation — such estimates came out
-    # 1.5–60 times too high, with intervals that say nothing of it (tests/test_halfpower.py)
-    too_short = [math.exp(-item[4] * duration) > RECORDED_MAX for item in found]
-    short = [item for item, drop in zip(found, too_short) if drop]
-    found = [item for item, drop in zip(found, too_short) if not drop]
-    # (σ from a window-widened band is too high, so the recorded fraction is at least this)
-    fractions = [f"near {item[1]:.4g} Hz the decay falls only to {100 * math.exp(-item[4] * duration):.0f} % "
-                 f"or more within the record" for item in short]
-    why = (f"({100 * RECORDED_MAX:.0f} % or less needed); the half-power band is then set by the "
-           f"record's length, not by damping")
-    reasons = [f"record too short: {text} {why}; not evaluated" for text in fractions]
-    if not found:
-        raise IdentificationError("record too short for the half-power bandwidth: "
-                                  + ", ".join(fractions) + " " + why)
-    warnings.extend(reasons)
 
     # pass 2: intervals
     for (ipk, fpk, omega, local, sigma, omega_d, w1, w2, res, correction) in found:
