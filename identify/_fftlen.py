@@ -14,8 +14,8 @@ __all__ = ["fast_length"]
 def fast_length(n: int) -> int:
     """Smallest integer ``m >= n`` whose only prime factors are 2, 3 and 5.
 
-    As ``scipy.fft.next_fast_len`` for real transforms up to the factor set (scipy also
-    accepts 7 and 11); written here so that the segment search imports no part of scipy.
+    Equal to ``scipy.fft.next_fast_len(n, real=True)`` (checked in tests/test_segment.py);
+    written here so that the segment search imports no part of scipy.
     """
     n = int(n)
     if n <= 6:

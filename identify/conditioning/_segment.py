@@ -106,10 +106,11 @@ def _hilbert_envelope(y, spec=None):
     The Hilbert transform by the FFT (as ``scipy.signal.hilbert(y, N)``): ``H{y}`` has the
     spectrum ``−j·Y_k`` on the positive frequencies and ``+j·Y_k`` on the negative ones,
     zero at DC and (even length) Nyquist.  The record is zero-padded to
-    ``N = fast_length(y.size)`` (a few per mille longer at most, so that a length with a
-    large prime factor does not cost a slow transform) and the first ``y.size`` samples
-    kept; one real FFT (``spec = rfft(y, N)``, when the caller holds it already) serves
-    both results.  The spectrum's bin k is the frequency ``k / N`` cycles per sample.
+    ``N = fast_length(y.size)`` (at most about 3 % longer for 1,000 samples or more, so
+    that a length with a large prime factor does not cost a slow transform) and the
+    first ``y.size`` samples kept; one real FFT (``spec = rfft(y, N)``, when the caller
+    holds it already) serves both results.  The spectrum's bin k is the frequency
+    ``k / N`` cycles per sample.
     """
     n = y.size
     nfft = fast_length(n)
