@@ -76,8 +76,7 @@ def clipping_warning(values, name: str = "signal") -> str | None:
         ``"clipping: channel 'x' sits at its maximum 10 for 57 samples (3 flat runs,
         longest 20); the sensor or logger may have saturated"`` or None.
     """
-    v = np.asarray(values, dtype=float).ravel()
-    v = v[np.isfinite(v)]
+    v = _finite(values)
     if v.size < 2 * MIN_RUN:
         return None
     lo, hi = float(v.min()), float(v.max())

@@ -116,3 +116,13 @@ def check_array_1d(name: str, values, *, min_length: int = 1, finite: bool = Tru
         bad = int(np.flatnonzero(~np.isfinite(arr))[0])
         raise ParameterValueError(f"{name} holds a non-finite value at index {bad}: {arr[bad]!r}")
     return arr
+
+
+def check_time_series(time_s, values, *, min_length: int = 1, values_name: str = "values"):
+    """``time_s`` and ``values`` as 1-D float arrays (:func:`check_array_1d` on each) of one length."""
+    t = check_array_1d("time_s", time_s, min_length=min_length)
+    x = check_array_1d(values_name, values, min_length=min_length)
+    if t.size != x.size:
+        raise ParameterValueError(
+            f"time_s and {values_name} must have the same length; got {t.size} and {x.size}")
+    return t, x

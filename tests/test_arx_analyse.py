@@ -315,8 +315,6 @@ def test_demo_motor_stage_record():
     from pathlib import Path
 
     root = Path(__file__).resolve().parents[1] / "datasets"
-    if not (root / "motor_prbs.csv").exists():
-        pytest.skip("demo datasets not present")
     truth = json.loads((root / "truth.json").read_text())["files"]["motor_prbs.csv"]
     result = analyse_arx(root / "motor_prbs.csv", output="speed", input="drive", orders=(3, 3),
                          refine="iv")

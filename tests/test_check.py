@@ -109,7 +109,8 @@ def _record(fn_hz, zeta, seed, n=1200, fs=400.0):
 
 @pytest.fixture(scope="module")
 def saved_decay():
-    decay = pytest.importorskip("identify.decay")
+    from identify import decay
+
     result = decay.analyse_decay(_record(12.0, 0.02, seed=1))
     return json.loads(dumps_line(result))  # exactly what --json writes
 

@@ -248,10 +248,6 @@ def write_decay_csv(path, when, zeta, rng, fn_hz=12.0, fs_hz=200.0, duration_s=2
 
 
 def test_end_to_end_with_the_decay_job(tmp_path, capsys):
-    try:
-        from identify.decay import analyse_decay  # noqa: F401 - skipped only when the job is absent
-    except ImportError:
-        pytest.skip("identify.decay cannot be imported")
     rng = np.random.default_rng(42)
     files = []
     start = datetime(2026, 1, 15, 8, 0, tzinfo=timezone.utc)

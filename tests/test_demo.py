@@ -40,9 +40,5 @@ def test_demo_completes_and_writes_the_report(tmp_path):
     assert len(parser.srcs) >= 15 and all(s.startswith("data:image/png;base64,") for s in parser.srcs)
     assert "http://" not in text and "https://" not in text
     assert len(re.findall(r'<section id="record-\d+">', text)) == 5
-    try:
-        import identify.history  # noqa: F401
-    except ImportError:
-        return
     assert "History and damping trends" in text and (out / "demo-history.sqlite").is_file()
     assert "fulmar" in done.stdout

@@ -120,7 +120,7 @@ def test_real_exponential_alone_is_no_oscillation():
 def test_bad_arguments_name_the_parameter():
     t = np.arange(100) / 10.0
     y = np.cos(t)
-    with pytest.raises(ParameterValueError, match="differ in length"):
+    with pytest.raises(ParameterValueError, match="must have the same length"):
         matrix_pencil(t, y[:-1])
     with pytest.raises(ParameterValueError, match="confidence"):
         matrix_pencil(t, y, confidence=95)

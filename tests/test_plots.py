@@ -6,7 +6,7 @@ import pytest
 from identify._response import ModelResponse
 from identify.poles import Pole, pole_with_delta_intervals
 
-plots = pytest.importorskip("identify.plots")
+from identify import plots
 
 
 def _response(unit="m/s^2"):

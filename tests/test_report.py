@@ -200,7 +200,8 @@ def test_result_without_optional_fields_loses_only_those_plots(tmp_path):
 
 
 def test_history_section_with_trend_plot(tmp_path):
-    history = pytest.importorskip("identify.history")
+    from identify import history
+
     with history.HistoryStore(tmp_path / "h.sqlite") as store:
         rng = np.random.default_rng(7)
         for k in range(6):

@@ -48,7 +48,7 @@ def assess(*, record, out_ch, in_ch, ls, iv_fit, final, y, u, yc, uc, y_mean, u_
     from ._simulate import predict_one_step, simulate_with_estimated_state
 
     has_input = uc is not None
-    na, nb, nk = final.na, final.nb, final.delay_samples
+    na, nk = final.na, final.delay_samples
     m = final.first_row
 
     # -- model output over the whole analysed record ------------------------------

@@ -12,7 +12,7 @@ import numpy as np
 
 from .._errors import IdentificationError, ParameterValueError
 from .._fftlen import fast_length
-from .._validate import check_array_1d, check_positive
+from .._validate import check_positive, check_time_series
 
 __all__ = ["DecaySegment", "detect_decay_segment"]
 
@@ -221,11 +221,7 @@ def detect_decay_segment(time_s, values, *, start_s=None, end_s=None, noise_std=
 
     Common practice, no single source; the thresholds are module constants.
     """
-    t = check_array_1d("time_s", time_s, min_length=16)
-    x = check_array_1d("values", values, min_length=16)
-    if t.size != x.size:
-        raise ParameterValueError(
-            f"time_s and values must have the same length; got {t.size} and {x.size}")
+    t, x = check_time_series(time_s, values, min_length=16)
     n = x.size
     dt = (t[-1] - t[0]) / (n - 1)
     if not dt > 0:

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._errors import IdentificationError
-from .._validate import check_array_1d
+from .._validate import check_time_series
 
 __all__ = ["StepEvent", "detect_step", "noise_std", "steady_statistic", "settled_tail",
            "STEADY_LIMIT", "CLEAN_STEP_SAMPLES"]
@@ -235,10 +235,7 @@ def detect_step(time_s, input_values, *, step_time_s=None) -> StepEvent:
     or past the half-way (50 %) level and the transition duration the 10–90 % crossing interval, with
     the reference levels of IEEE Std 181.
     """
-    t = check_array_1d("time_s", time_s, min_length=2)
-    u = check_array_1d("input_values", input_values, min_length=2)
-    if t.size != u.size:
-        raise IdentificationError(f"time_s and input_values differ in length: {t.size} and {u.size}")
+    t, u = check_time_series(time_s, input_values, min_length=2, values_name="input_values")
     n = u.size
     ts = float(np.median(np.diff(t)))
     sigma = noise_std(u)

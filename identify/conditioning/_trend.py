@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._errors import ParameterValueError
-from .._validate import check_array_1d
+from .._validate import check_time_series
 from .._fftlen import fast_length
 
 __all__ = ["OffsetTrend", "estimate_offset_trend", "robust_noise_std"]
@@ -86,11 +86,7 @@ def estimate_offset_trend(time_s, values, *, linear: bool = True) -> OffsetTrend
     ----------
     Any text on linear regression, e.g. Draper & Smith, *Applied Regression Analysis*.
     """
-    t = check_array_1d("time_s", time_s, min_length=1)
-    y = check_array_1d("values", values, min_length=1)
-    if t.size != y.size:
-        raise ParameterValueError(
-            f"time_s and values must have the same length; got {t.size} and {y.size}")
+    t, y = check_time_series(time_s, values, min_length=1)
     p = 2 if linear else 1
     if y.size < p + 1:
         raise ParameterValueError(

@@ -10,7 +10,7 @@ import math
 import numpy as np
 
 from .._errors import IdentificationError, ParameterValueError
-from .._validate import check_array_1d, check_confidence
+from .._validate import check_array_1d, check_confidence, check_time_series
 from ._common import MethodEstimate
 
 __all__ = ["half_power"]
@@ -367,11 +367,7 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     from ..poles import pole_with_sample_intervals
 
     level = check_confidence(confidence)
-    t = check_array_1d("time_s", time_s, min_length=8)
-    x = check_array_1d("values", values, min_length=8)
-    if t.size != x.size:
-        raise ParameterValueError(
-            f"time_s and values must have the same length; got {t.size} and {x.size}")
+    t, x = check_time_series(time_s, values, min_length=8)
     dt = (t[-1] - t[0]) / (t.size - 1)
     if not dt > 0:
         raise ParameterValueError("time_s must increase")

@@ -8,8 +8,8 @@ import math
 
 import numpy as np
 
-from .._errors import IdentificationError, ParameterValueError
-from .._validate import check_array_1d, check_confidence, check_nonnegative
+from .._errors import IdentificationError
+from .._validate import check_confidence, check_nonnegative, check_time_series
 from ._common import MethodEstimate
 
 __all__ = ["log_decrement", "damping_from_decrement", "extrema"]
@@ -271,11 +271,7 @@ def log_decrement(time_s, values, *, confidence: float = 0.95, noise_std=None) -
     from scipy import stats
 
     level = check_confidence(confidence)
-    t = check_array_1d("time_s", time_s, min_length=3)
-    x = check_array_1d("values", values, min_length=3)
-    if t.size != x.size:
-        raise ParameterValueError(
-            f"time_s and values must have the same length; got {t.size} and {x.size}")
+    t, x = check_time_series(time_s, values, min_length=3)
     noise_given = noise_std is not None
     if noise_given:
         noise = check_nonnegative("noise_std", noise_std)

@@ -15,7 +15,7 @@ import math
 import numpy as np
 
 from .._errors import IdentificationError, ParameterValueError
-from .._validate import check_array_1d, check_choice, check_confidence, check_int
+from .._validate import check_choice, check_confidence, check_int, check_time_series
 from ._common import MethodEstimate
 
 __all__ = ["fit_damped_sinusoids", "model_basis", "model_values", "model_values_on_grid", "model_jacobian",
@@ -304,10 +304,7 @@ def fit_damped_sinusoids(time_s, values, seeds, *, drift=False, confidence=0.95,
     Theory*, ch. 3 and 7.  Newville, M. et al., LMFIT (non-linear least squares for
     Python).
     """
-    t = check_array_1d("time_s", time_s, min_length=8)
-    y = check_array_1d("values", values, min_length=8)
-    if t.size != y.size:
-        raise ParameterValueError(f"time_s and values differ in length: {t.size} and {y.size}")
+    t, y = check_time_series(time_s, values, min_length=8)
     level = check_confidence(confidence)
     intervals = check_choice("intervals", intervals, ("delta", "bootstrap"))
     n_boot = check_int("n_boot", n_boot, minimum=20)

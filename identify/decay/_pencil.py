@@ -13,7 +13,7 @@ import math
 import numpy as np
 
 from .._errors import IdentificationError, ParameterValueError
-from .._validate import check_array_1d, check_confidence, check_int
+from .._validate import check_confidence, check_int, check_time_series
 from ._common import MethodEstimate
 
 __all__ = ["matrix_pencil", "choose_decimation", "block_decimate", "block_gain"]
@@ -214,10 +214,7 @@ def matrix_pencil(time_s, values, *, order="auto", confidence=0.95, max_modes=10
     Sarkar, T. K. & Pereira, O. (1995). Using the matrix pencil method to estimate the
     parameters of a sum of complex exponentials. IEEE Antennas Propag. Mag. 37(1), 48–55.
     """
-    t = check_array_1d("time_s", time_s, min_length=8)
-    y = check_array_1d("values", values, min_length=8)
-    if t.size != y.size:
-        raise ParameterValueError(f"time_s and values differ in length: {t.size} and {y.size}")
+    t, y = check_time_series(time_s, values, min_length=8)
     level = check_confidence(confidence)
     max_modes = check_int("max_modes", max_modes, minimum=1, maximum=50)
     samples_per_period = check_int("samples_per_period", samples_per_period, minimum=4)

@@ -376,9 +376,8 @@ def fit_structure(structure: str, setup: FitSetup, *, seed_theta_s: float, seed_
     result = refit(structure, values, setup)
     if result.success or np.isfinite(result.chisqr):
         new = {name: float(result.params[name].value) for name in values}
-        rss_new = float(result.chisqr)
     else:
-        new, rss_new = values, float("inf")
+        new = values
     names = tuple(result.var_names)
     cov = None if result.covar is None else np.array(result.covar, dtype=float)
     new, cov = _ordered(structure, new, names, cov)
