@@ -112,7 +112,14 @@ def test_chosen_model_fields_and_units(auto_results):
     assert result.tuning.controller == "PID"
     result, _ = auto_results[("integrating", 0)]
     assert result.model.gain_unit == "mm/%/s"
+    # each model carries the unit of its own gain: a self-regulating runner-up's is not a rate
+    runner = result.runner_up
+    assert runner is not None and runner.structure != "integrating" and runner.gain_unit == "mm/%"
     assert any(w.startswith("integrating response:") for w in result.warnings)
+    result, _ = auto_results[("first-order", 0)]
+    assert result.model.gain_unit == "mm/%"
+    if result.runner_up is not None:
+        assert result.runner_up.gain_unit == ("mm/%/s" if result.runner_up.structure == "integrating" else "mm/%")
 
 
 def test_clean_record_has_no_warnings(auto_results):

@@ -61,7 +61,8 @@ def summary_line(name, job, result) -> str:
     gain = getattr(model, "gain", None) if model is not None else None
     dead = getattr(model, "dead_time_s", None) if model is not None else None
     if gain is not None and dead is not None:
-        extra = f"; gain {fmt(gain, 4)}, dead time {fmt(dead, 3)} s"
+        unit = getattr(model, "gain_unit", "") or ""
+        extra = f"; gain {fmt(gain, 4, unit)}, dead time {fmt(dead, 3)} s"
     n_warn = len(getattr(result, "warnings", ()) or ())
     warn = f"; {n_warn} warning(s)" if n_warn else ""
     return f"  {name} ({job}): " + ("; ".join(parts) or "no pole") + extra + warn

@@ -302,9 +302,10 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
     runner = rest[0] if rest else None
 
     # -- intervals and poles ---------------------------------------------------------
-    gain_unit = f"{out_ch.unit}/{in_unit}" if (out_ch.unit or in_unit) else ""
-    if chosen.structure == "integrating" and gain_unit:
-        gain_unit += "/s"
+    def gain_unit(structure):  # an integrating process's gain is a rate: output per input per second
+        unit = f"{out_ch.unit}/{in_unit}" if (out_ch.unit or in_unit) else ""
+        return unit + "/s" if structure == "integrating" and unit else unit
+
     dead_time_interval = "bootstrap" if intervals == "bootstrap" else "delta"
     if intervals == "bootstrap":
         ci, poles = bootstrap_intervals(chosen, setup, level, seed, BOOTSTRAP_SAMPLES)
@@ -316,11 +317,11 @@ def analyse_step(record_or_path, *, output, input=None, step_time_s=None, step_s
             # at or near the bound theta = 0 the normal approximation fails: profile likelihood
             ci["dead_time_s"] = dead_time_profile_interval(chosen, setup, level)
             dead_time_interval = "profile likelihood (estimate at or near zero)"
-    pmodel = process_model(chosen, ci, poles, level, intervals, gain_unit)
+    pmodel = process_model(chosen, ci, poles, level, intervals, gain_unit(chosen.structure))
     runner_model = None
     if runner is not None:
         runner_model = process_model(runner, delta_intervals(runner, level), poles_delta(runner, level),
-                                      level, "delta", gain_unit)
+                                      level, "delta", gain_unit(runner.structure))
 
     # -- figures: measured and model -----------------------------------------------------
     v = chosen.values

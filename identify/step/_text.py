@@ -55,7 +55,7 @@ def render(result) -> str:
                  f"Ljung-Box p {_f(result.fit['ljung_box_p'], 2)}")
     if result.runner_up is not None:
         r = result.runner_up
-        parts = [f"gain {_f(r.gain)}", f"dead time {_f(r.dead_time_s)} s"]
+        parts = [f"gain {_f(r.gain)} {r.gain_unit}".rstrip(), f"dead time {_f(r.dead_time_s)} s"]
         parts += [f"tau{i} {_f(x)} s" for i, x in enumerate(r.time_constants_s, 1)]
         if r.natural_frequency_hz is not None:
             parts += [f"fn {_f(r.natural_frequency_hz)} Hz", f"zeta {_f(r.damping_ratio)}"]
