@@ -94,11 +94,11 @@ def read_record(path, *, sample_rate_hz=None, time_column=None, nan="raise") -> 
     if time_column is not None and not isinstance(time_column, (str, int)):
         raise ParameterTypeError(f"time_column must be a column name, a 0-based index or False; "
                                  f"got {time_column!r}")
-    raw = _read_bytes(source)
+    raw, identity = _read_bytes(source)
     digest = hashlib.sha256(raw).hexdigest()
     raw, utf16_note = _from_utf16(raw, source)
     dialect = sniff(raw, source)
-    frame = _parse_bulk(raw, dialect, source)
+    frame = _parse_bulk(raw, dialect, source, identity=None if utf16_note else identity)
     line_of = _LineMap(raw, dialect)
     notes = list(dialect.notes) + utf16_note
 
@@ -156,11 +156,14 @@ def read_record(path, *, sample_rate_hz=None, time_column=None, nan="raise") -> 
 
 
 # -- reading ------------------------------------------------------------------------
-def _read_bytes(source: str) -> bytes:
+def _read_bytes(source: str):
+    """The file's bytes, and its identity (device, inode, size, modification time) when
+    it is a regular file of that size (else None)."""
     if os.path.isdir(source):
         raise RecordError("is a directory, not a CSV file", source)
     try:
         with open(source, "rb") as fh:
+            identity = _identity(os.fstat(fh.fileno()))
             raw = fh.read()
     except FileNotFoundError:
         raise RecordError("file not found", source) from None
@@ -170,7 +173,18 @@ def _read_bytes(source: str) -> bytes:
         raise RecordError(f"cannot read the file: {exc.strerror or exc}", source) from None
     if not raw or (len(raw) < 4096 and not raw.strip(b" \t\r\n\x1a")):
         raise RecordError("the file is empty", source)
-    return raw
+    if identity is not None and identity[2] != len(raw):
+        identity = None
+    return raw, identity
+
+
+def _identity(st):
+    """(device, inode, size, modification time in ns) of a regular file, else None."""
+    import stat
+
+    if not stat.S_ISREG(st.st_mode):
+        return None
+    return (st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns)
 
 
 def _from_utf16(raw: bytes, source: str):
@@ -185,8 +199,11 @@ def _from_utf16(raw: bytes, source: str):
     return text.encode("utf-8"), ["encoding: the file is UTF-16; converted to UTF-8 to read it"]
 
 
-def _parse_bulk(raw: bytes, dialect: Dialect, source: str):
-    """The data rows as a frame of columns 0..ncols-1."""
+def _parse_bulk(raw: bytes, dialect: Dialect, source: str, identity=None):
+    """The data rows as a frame of columns 0..ncols-1.
+
+    ``identity`` (from :func:`_read_bytes`) allows pandas to read the rows from the file
+    itself (:func:`_parse_file`), about twice as fast as from the bytes in memory."""
     import io
 
     import pandas as pd
@@ -208,7 +225,9 @@ def _parse_bulk(raw: bytes, dialect: Dialect, source: str):
     # engine="c" and low_memory=False pandas has no fallback or chunk-type warning to give.
     try:
         frame = None
-        if fast is not None:
+        if fast is not None and identity is not None:
+            frame = _parse_file(raw, dialect, source, identity, fast)
+        if fast is not None and frame is None:
             frame = pd.read_csv(io.BytesIO(raw[dialect.data_offset:]), **fast)
             if not all(dtype in (np.float64, np.int64) for dtype in frame.dtypes):
                 frame = None  # text, booleans or mixed chunks: parse again as a whole
@@ -226,6 +245,36 @@ def _parse_bulk(raw: bytes, dialect: Dialect, source: str):
         raise RecordError(_field_count_problem(raw, dialect) or
                           f"rows have {frame.shape[1]} fields, expected {dialect.ncols}", source)
     frame.columns = range(frame.shape[1])
+    return frame
+
+
+def _parse_file(raw: bytes, dialect: Dialect, source: str, identity, fast: dict):
+    """The frame read by pandas from the file itself, or None where that is not certain
+    to give what the bytes in memory give.
+
+    pandas parses from a path about twice as fast as from bytes in memory (its own
+    buffered reads rather than a Python file object's).  Taken only for UTF-8 rows
+    whose lines before the data all end in ``\n`` (so that skipping ``data_line - 1``
+    lines lands on ``data_offset``), and only when the file's identity (device, inode,
+    size, modification time) is the same after the parse as when its bytes were read
+    and hashed: the numbers are then those of the bytes whose SHA-256 the record
+    carries.  Anything else (a parse error included) returns None and the caller parses
+    the bytes, which gives the errors their usual wording.
+    """
+    import pandas as pd
+
+    head = raw[:dialect.data_offset]
+    if dialect.encoding != "utf-8" or fast.get("encoding") is not None or b"\r" in head.replace(b"\r\n", b"") \
+            or head.count(b"\n") != dialect.data_line - 1 or raw.startswith(b"\xef\xbb\xbf"):
+        return None
+    try:
+        frame = pd.read_csv(source, skiprows=dialect.data_line - 1, **fast)
+        if _identity(os.stat(source)) != identity:
+            return None
+    except Exception:  # noqa: BLE001 - the bytes are parsed instead, with the usual errors
+        return None
+    if not all(dtype in (np.float64, np.int64) for dtype in frame.dtypes):
+        return None
     return frame
 
 

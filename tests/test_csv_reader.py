@@ -483,3 +483,70 @@ def test_units_on_a_second_header_row(tmp_path):
     assert [(c.name, c.unit) for c in rec.channels] == [("Force", "kN"), ("Accel", "m/s^2")]
     rec = read_record(write(tmp_path, "t,x\n[ms],[V]\n0,1\n2,2\n4,3\n", "b.csv"))
     assert rec.sample_time_s == pytest.approx(2e-3) and rec.channels[0].unit == "V"
+
+
+# -- pandas reads the rows from the file itself (faster), only when that is certain ----
+def _rows(n, start=0.0):
+    t = start + np.arange(n) * 0.001
+    return "".join(f"{a:.3f},{np.sin(a * 40):.6f}\n" for a in t)
+
+
+@pytest.mark.parametrize("head", ["time (s),x (V)\n", "# rig: bench\n\ntime (s),x (V)\n",
+                                  "time (s),x (V)\r\n", "# rig: bench\r\ntime (s),x (V)\r\n"])
+def test_file_route_gives_the_numbers_of_the_bytes(tmp_path, head, monkeypatch):
+    # derived: the frame parsed from the path and the one parsed from the bytes in memory
+    # are the same numbers, whatever the preamble's line ends
+    import identify._csv as csv
+
+    path = write(tmp_path, head + _rows(3000))
+    via_file = read_record(path)
+    monkeypatch.setattr(csv, "_parse_file", lambda *args, **kwargs: None)
+    via_bytes = read_record(path)
+    np.testing.assert_array_equal(via_file.channels[0].values, via_bytes.channels[0].values)
+    assert via_file.sha256 == via_bytes.sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
+    assert (via_file.start_s, via_file.sample_time_s) == (via_bytes.start_s, via_bytes.sample_time_s)
+
+
+def test_file_route_is_taken_and_declined_as_documented(tmp_path, monkeypatch):
+    import identify._csv as csv
+
+    taken = []
+    real = csv._parse_file
+
+    def spy(*args, **kwargs):
+        frame = real(*args, **kwargs)
+        taken.append(frame is not None)
+        return frame
+
+    monkeypatch.setattr(csv, "_parse_file", spy)
+    read_record(write(tmp_path, "time (s),x (V)\n" + _rows(500), "plain.csv"))
+    read_record(write(tmp_path, "time (s),x (V)\r" + _rows(500).replace("\n", "\r"), "cr.csv"))
+    read_record(write(tmp_path, "\ufefftime (s),x (V)\n" + _rows(500), "bom.csv"))
+    assert taken == [True, False, False]  # bare \r line ends and a BOM go through the bytes
+
+
+def test_file_changed_after_hashing_falls_back_to_the_hashed_bytes(tmp_path, monkeypatch):
+    # the numbers must be those of the bytes whose SHA-256 the record carries: a file
+    # rewritten between the read and pandas' parse is parsed from the bytes instead
+    import pandas as pd
+
+    import identify._csv as csv
+
+    path = write(tmp_path, "time (s),x (V)\n" + _rows(500))
+    original = path.read_bytes()
+    real_read_csv = pd.read_csv
+
+    def rewrite_then_parse(source, *args, **kwargs):
+        if isinstance(source, str):  # the file route: someone rewrites the file first
+            path.write_bytes(original.replace(b"0.000,", b"0.000,9", 1) + b"0.500,1\n")
+        return real_read_csv(source, *args, **kwargs)
+
+    monkeypatch.setattr(pd, "read_csv", rewrite_then_parse)
+    calls = []
+    real = csv._parse_file
+    monkeypatch.setattr(csv, "_parse_file", lambda *a, **k: calls.append(real(*a, **k)) or calls[-1])
+    rec = read_record(path)
+    assert calls == [None]
+    assert rec.samples == 500
+    assert rec.sha256 == hashlib.sha256(original).hexdigest()
+    assert rec.channels[0].values[0] == pytest.approx(0.0)

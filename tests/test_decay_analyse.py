@@ -187,3 +187,94 @@ def test_record_not_mutated_and_repeatable():
     assert np.array_equal(rec.channel().values, before)
     assert a == b
     assert math.isfinite(a["poles"][0]["ci"]["damping_ratio"][0])
+
+
+def test_linear_model_of_exact_poles_gives_the_written_coefficients():
+    # derived: at the true poles the model is linear in c, d, offset and drift, so least
+    # squares on noiseless samples returns the coefficients the record was written with
+    # (on the strided subset of a long record as well)
+    from identify.decay._refine import _linear_model
+    from identify.poles import Pole, pole_from_frequency_damping
+
+    for n in (2000, 180_000):
+        t = 0.25 + np.arange(n) / 1000.0
+        tau = t - t[0]
+        p1, p2 = pole_from_frequency_damping(7.0, 0.01), pole_from_frequency_damping(19.0, 0.02)
+        y = 0.4 - 0.03 * tau
+        written = [(p1, 1.2, -0.5), (p2, 0.3, 0.7)]
+        for p, c, d in written:
+            y = y + np.exp(p.real * tau) * (c * np.cos(p.imag * tau) + d * np.sin(p.imag * tau))
+        model = _linear_model(t, y, [Pole(p1.real, p1.imag), Pole(p2.real, p2.imag)], drift=True)
+        assert model["t_ref_s"] == t[0]
+        assert model["offset"] == pytest.approx(0.4, abs=1e-9)
+        assert model["drift_per_s"] == pytest.approx(-0.03, abs=1e-9)
+        for term, (p, c, d) in zip(model["terms"], written):
+            assert (term["real"], term["imag"]) == pytest.approx((p.real, p.imag), rel=1e-12)
+            assert (term["c"], term["d"]) == pytest.approx((c, d), abs=1e-8)
+    assert _linear_model(t, y, [], drift=True) is None
+
+
+def _spy(monkeypatch, module, name):
+    calls = []
+    real = getattr(module, name)
+
+    def spy(*args, **kwargs):
+        calls.append((args, kwargs))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(module, name, spy)
+    return calls
+
+
+def test_segment_grows_with_the_pencil_model_before_the_one_fit(monkeypatch):
+    # a hammer record: detection starts the ring-down about a cycle after the impact; the
+    # pencil's model carries the segment back to the trigger and on to the record end
+    # before the fit, so the fit runs once, on the final segment (no refit)
+    import identify.decay._halfpower as hp
+    import identify.decay._nls as nls
+
+    rec, _, _ = make_record([(8.0, 0.01, 1.0, 0.0)], fs=250.0, n=3000, snr_db=35, pretrigger=400, seed=4)
+    fits = _spy(monkeypatch, nls, "fit_damped_sinusoids")
+    halves = _spy(monkeypatch, hp, "half_power")
+    result = analyse_decay(rec)
+    seg = result.segment
+    assert seg["detected_start_s"] > seg["start_s"]
+    assert seg["start_s"] == pytest.approx(400 / 250.0, abs=3 / 250.0)
+    assert seg["end_s"] == pytest.approx(rec.time_s[-1])
+    assert "extended while the free-decay model explains the samples" in seg["chosen_by"]
+    assert len(fits) == 1
+    t_fit = fits[0][0][0]
+    assert (t_fit[0], t_fit[-1]) == (seg["start_s"], seg["end_s"])
+    # half-power ran once, ahead of the fit, on the final segment at frequencies within 1 %
+    # of the answer's (the pencil's), and stands in the result
+    assert len(halves) == 1
+    (t_hp, _), kw = halves[0]
+    assert (t_hp[0], t_hp[-1]) == (seg["start_s"], seg["end_s"])
+    assert kw["frequencies_hz"] == pytest.approx([p.natural_frequency_hz for p in result.poles], rel=0.01)
+    assert result.methods["halfpower"].poles
+
+
+def test_half_power_runs_again_when_the_fit_changes_the_modes(monkeypatch):
+    # the early half-power is kept only when the fit keeps the pencil's segment and
+    # modes; a pencil with a mode the fit prunes makes it run again at the answer's
+    import identify.decay._analyse as an
+    import identify.decay._halfpower as hp
+
+    rec, _, _ = make_record([(8.0, 0.01, 1.0, 0.0)], fs=250.0, n=3000, snr_db=35, seed=4)
+    monkeypatch.setattr(an, "_same_modes", lambda these, those: False)
+    halves = _spy(monkeypatch, hp, "half_power")
+    result = analyse_decay(rec)
+    assert len(halves) == 2
+    assert halves[1][1]["frequencies_hz"] == [p.natural_frequency_hz for p in result.poles]
+
+
+def test_same_modes_rule():
+    from identify.decay._analyse import _same_modes
+    from identify.poles import Pole, pole_from_frequency_damping
+
+    def poles(*fns):
+        return [Pole(p.real, p.imag) for p in map(lambda f: pole_from_frequency_damping(f, 0.01), fns)]
+
+    assert _same_modes(poles(10.0, 20.0), poles(20.1, 10.05))
+    assert not _same_modes(poles(10.0, 20.0), poles(10.0, 20.3))
+    assert not _same_modes(poles(10.0, 20.0), poles(10.0))

@@ -197,3 +197,20 @@ def test_slow_oscillation_already_under_way_is_not_a_trigger():
     x = np.exp(-0.05 * t) * np.cos(2 * math.pi * 0.25 * t) + 1e-3 * rng.standard_normal(t.size)
     seg = detect_decay_segment(t, x)
     assert seg.trigger_s is None
+
+
+@pytest.mark.parametrize("where", [None, 0, 5, 4095, 4096, 4097, 12_287, 12_288, 99_999])
+def test_first_beyond_is_the_first_index_of_the_whole_comparison(where):
+    # derived: the chunked scan must give np.flatnonzero(|x - c| > limit)[0] exactly,
+    # including at the chunk edges (4,096, then 8,192, ...) and when nothing crosses
+    from identify.conditioning._segment import _first_beyond
+
+    rng = np.random.default_rng(3)
+    x = 0.5 + 0.1 * rng.uniform(-1, 1, 100_000)
+    if where is not None:
+        x[where] = 2.0
+        x[-1] = -3.0  # a later crossing must not be the answer
+    whole = np.flatnonzero(np.abs(x - 0.5) > 1.0)
+    got = _first_beyond(x, 0.5, 1.0)
+    assert got == (int(whole[0]) if whole.size else None)
+    assert (got is None) == (where is None)

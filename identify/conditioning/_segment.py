@@ -269,6 +269,23 @@ def _robust_noise(x, spectrum=None):
     return _robust_noise_std(x, spectrum)
 
 
+def _first_beyond(x, centre, limit):
+    """Index of the first sample with ``|x - centre| > limit``, or None.
+
+    Scanned in chunks that double from 4,096 samples: a trigger usually comes early in
+    the record, and a long record need not be compared whole (the same index as
+    ``np.flatnonzero(np.abs(x - centre) > limit)[0]``).
+    """
+    start, size = 0, 4096
+    while start < x.size:
+        stop = min(x.size, start + size)
+        hit = np.flatnonzero(np.abs(x[start:stop] - centre) > limit)
+        if hit.size:
+            return start + int(hit[0])
+        start, size = stop, 2 * size
+    return None
+
+
 def _detect(t, x, dt, given_noise):
     n = x.size
     chosen = {}
@@ -298,10 +315,10 @@ def _detect(t, x, dt, given_noise):
         base = b0
         cross = None
         for _ in range(10):  # re-estimate on everything before the crossing until it settles
-            beyond = np.flatnonzero(np.abs(x - base) > k_thr * s)
-            if beyond.size == 0:
+            beyond = _first_beyond(x, base, k_thr * s)
+            if beyond is None:
                 break
-            previous, cross = cross, int(beyond[0])
+            previous, cross = cross, beyond
             if cross < 8 or cross == previous:
                 break
             quiet = x[:cross]

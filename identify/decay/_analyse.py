@@ -15,7 +15,8 @@ from .._validate import check_choice, check_confidence, check_int, check_positiv
 from ._checks import _checks, _consensus, _not_used, _why
 from ._common import MethodEstimate
 from ._refine import (CROSS_CHECK_MAX_SAMPLES, EXTEND_ROUNDS, HALFPOWER_MAX_SAMPLES, SECOND_LOOK_MIN_SAMPLES,
-                      _block_copy, _clipping, _extend_segment, _finite_run, _prune, _second_look, _segment)
+                      _block_copy, _clipping, _extend_segment, _finite_run, _linear_model, _prune, _second_look,
+                      _segment)
 
 __all__ = ["analyse_decay", "METHODS"]
 
@@ -53,6 +54,54 @@ def _model_on_segment(answer: MethodEstimate, t, y, drift):
     om = [p.imag for p in osc]
     c, dd, b0, b1 = linear_coefficients(tau, y, sg, om, drift)
     return model_values(tau, sg, om, c, dd, b0, b1)
+
+
+def _same_modes(these, those, tolerance=0.01):
+    """True when two pole sets hold as many modes at frequencies within ``tolerance``."""
+    fa = sorted(p.natural_frequency_hz for p in these)
+    fb = sorted(p.natural_frequency_hz for p in those)
+    return len(fa) == len(fb) and all(abs(a - b) <= tolerance * b for a, b in zip(fa, fb))
+
+
+def _cross_checks(method, t, y0, poles, level, noise_pre, fs, which=("logdec", "halfpower")):
+    """Log decrement (single-mode records only) and half-power at the frequencies of
+    ``poles`` on the baseline-free segment ``(t, y0)``; ``poles=None`` lets the method
+    named alone find its own.  In auto mode a failing cross-check is "not used".
+    ``which`` limits the methods run."""
+    out = {}
+    if poles is None:
+        from ._pencil import choose_decimation
+
+        _, fastest = choose_decimation(y0, 1.0 / fs)
+    else:
+        fastest = max((p.natural_frequency_hz for p in poles), default=0.0)
+    if method in ("auto", "logdec") and "logdec" in which:
+        if poles is None or len(poles) == 1:
+            try:
+                from ._logdec import log_decrement
+
+                # peaks need >= 20 samples per period for the 3-point interpolation
+                tc, yc, q_cross = _block_copy(t, y0, fastest, 20.0, CROSS_CHECK_MAX_SAMPLES)
+                out["logdec"] = log_decrement(tc, yc, confidence=level, noise_std=None if q_cross > 1 else noise_pre)
+            except Exception as exc:  # a failing cross-check must not sink the answer
+                if method == "logdec":
+                    raise
+                out["logdec"] = _not_used("logdec", _why(exc))
+        else:
+            out["logdec"] = _not_used("logdec", "a single-mode method and the record holds several modes")
+    if method in ("auto", "halfpower") and "halfpower" in which:
+        try:
+            from ._halfpower import half_power
+
+            freqs = None if poles is None else [p.natural_frequency_hz for p in poles]
+            # the spectrum needs the record's length, not its sample rate
+            tc, yc, _ = _block_copy(t, y0, fastest, 6.0, HALFPOWER_MAX_SAMPLES)
+            out["halfpower"] = half_power(tc, yc, confidence=level, frequencies_hz=freqs)
+        except Exception as exc:  # a failing cross-check must not sink the answer
+            if method == "halfpower":
+                raise
+            out["halfpower"] = _not_used("halfpower", _why(exc))
+    return out
 
 
 def analyse_decay(record_or_path, *, column=None, method="auto", modes="auto", confidence=0.95,
@@ -198,8 +247,8 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
     max_modes = 10 if modes == "auto" else int(modes)
     drift = True
 
-    def run_pencil():
-        est = matrix_pencil(t, y0, confidence=level, max_modes=max(max_modes, 10))
+    def run_pencil(tt, yy):
+        est = matrix_pencil(tt, yy, confidence=level, max_modes=max(max_modes, 10))
         if modes != "auto" and len(est.poles) > modes:
             keep = sorted(est.poles, key=lambda p: -(p.amplitude or 0.0))[:modes]
             est = MethodEstimate("pencil", tuple(keep), est.warnings, est.details)
@@ -209,15 +258,43 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
     from ._pencil import matrix_pencil
 
     answer = None
+    early = None  # cross-checks run before the fit: (segment, the poles they were given, results)
     if method in ("auto", "fit", "pencil"):
-        pencil = run_pencil()
+        detected = (float(t[0]), float(t[-1]))
+        pencil = run_pencil(t, y0)
+        if method != "pencil":
+            # grow the segment while the pencil's model explains the samples (back to just
+            # after the trigger, on to the record end), the pencil again on each growth
+            for _ in range(EXTEND_ROUNDS):
+                model = _linear_model(t, y, pencil.poles, drift)
+                if model is None:
+                    break
+                new_lo, new_hi = _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, model)
+                if (new_lo, new_hi) == (lo, hi):
+                    break
+                t_new, y_new = t_all[new_lo:new_hi], y_all[new_lo:new_hi]
+                try:
+                    grown = run_pencil(t_new, y_new - pre.evaluate(t_new))
+                except PoleprintError:
+                    break
+                if not grown.poles:
+                    break
+                lo, hi, t, y, pencil = new_lo, new_hi, t_new, y_new, grown
+                y0 = y - pre.evaluate(t)
         methods["pencil"] = pencil
+        pencil_segment = (lo, hi)
         order_scan = tuple(pencil.details.get("order_scan", ()))
         if modes != "auto" and len(pencil.poles) < modes:
             warnings.append(f"fewer modes: {modes} asked for, {len(pencil.poles)} found above the noise; "
                             f"no mode is made up")
         answer = pencil
         if method != "pencil":
+            if method == "auto":
+                # half-power needs only the segment and the modes' frequencies: run it now,
+                # ahead of the fit (log decrement's t quantiles need scipy.stats, which the
+                # command line is importing with lmfit in another thread meanwhile)
+                early = ((lo, hi), pencil.poles, _cross_checks(method, t, y0, pencil.poles, level, noise_pre, fs,
+                                                               which=("halfpower",)))
             try:
                 fitted = fit_damped_sinusoids(t, y, pencil.poles, drift=drift, confidence=level,
                                               intervals="delta", seed=seed)
@@ -225,11 +302,9 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                 warnings.append(f"fit failed: {' '.join(str(exc).split())}; the matrix-pencil poles are the answer")
             else:
                 fitted = _prune(fitted, t, y, fit_damped_sinusoids, drift, level, "delta", seed)
-                methods["fit"] = fitted
-                answer = fitted
-                detected = (float(t[0]), float(t[-1]))
-                for _ in range(EXTEND_ROUNDS):  # each refit extrapolates better: grow again
-                    new_lo, new_hi = _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted)
+                methods["fit"] = answer = fitted
+                for _ in range(EXTEND_ROUNDS):  # the fit extrapolates better: grow again, refit
+                    new_lo, new_hi = _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted.details)
                     if (new_lo, new_hi) == (lo, hi):
                         break
                     try:
@@ -253,58 +328,33 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                         methods["pencil"], fitted = second
                         methods["fit"] = answer = fitted
                         order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
-                if detected != (float(t_all[lo]), float(t_all[hi - 1])):
-                    seg_info["detected_start_s"], seg_info["detected_end_s"] = detected
-                    t, y = t_all[lo:hi], y_all[lo:hi]
-                    y0 = y - pre.evaluate(t)
-                    seg_info["start_s"], seg_info["end_s"] = float(t[0]), float(t[-1])
-                    seg_info["chosen_by"] += ", extended while the fitted model explains the samples"
-                    if method == "auto":  # the pencil as a cross-check on the same samples
-                        try:
-                            methods["pencil"] = run_pencil()
-                            order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
-                        except PoleprintError:
-                            pass
+                        pencil_segment = (lo, hi)
+                t, y = t_all[lo:hi], y_all[lo:hi]
+                y0 = y - pre.evaluate(t)
+                if (lo, hi) != pencil_segment and method == "auto":  # the pencil as a cross-check on the same samples
+                    try:
+                        methods["pencil"] = run_pencil(t, y0)
+                        order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
+                    except PoleprintError:
+                        pass
+        if detected != (float(t[0]), float(t[-1])):
+            seg_info["detected_start_s"], seg_info["detected_end_s"] = detected
+            seg_info["start_s"], seg_info["end_s"] = float(t[0]), float(t[-1])
+            seg_info["chosen_by"] += ", extended while the free-decay model explains the samples"
     if intervals == "bootstrap" and "fit" in methods:  # the segment is settled: resample once
         try:
             methods["fit"] = answer = fit_damped_sinusoids(t, y, methods["fit"].poles, drift=drift,
                                                            confidence=level, intervals="bootstrap", seed=seed)
         except (PoleprintError, np.linalg.LinAlgError, ValueError) as exc:
             warnings.append(f"bootstrap failed: {' '.join(str(exc).split())}; delta-method intervals given")
-    fastest = max((p.natural_frequency_hz for p in answer.poles), default=0.0) if answer else 0.0
     if method in ("auto", "logdec", "halfpower"):
-        if answer is None:
-            from ._pencil import choose_decimation
-
-            _, fastest = choose_decimation(y0, 1.0 / fs)
-        single = answer is None or len(answer.poles) == 1
-        if method in ("auto", "logdec"):
-            if single:
-                try:
-                    from ._logdec import log_decrement
-
-                    # peaks need >= 20 samples per period for the 3-point interpolation
-                    tc, yc, q_cross = _block_copy(t, y0, fastest, 20.0, CROSS_CHECK_MAX_SAMPLES)
-                    methods["logdec"] = log_decrement(tc, yc, confidence=level,
-                                                      noise_std=None if q_cross > 1 else noise_pre)
-                except Exception as exc:  # a failing cross-check must not sink the answer
-                    if method == "logdec":
-                        raise
-                    methods["logdec"] = _not_used("logdec", _why(exc))
-            else:
-                methods["logdec"] = _not_used("logdec", "a single-mode method and the record holds several modes")
-        if method in ("auto", "halfpower"):
-            try:
-                from ._halfpower import half_power
-
-                freqs = None if answer is None else [p.natural_frequency_hz for p in answer.poles]
-                # the spectrum needs the record's length, not its sample rate
-                tc, yc, _ = _block_copy(t, y0, fastest, 6.0, HALFPOWER_MAX_SAMPLES)
-                methods["halfpower"] = half_power(tc, yc, confidence=level, frequencies_hz=freqs)
-            except Exception as exc:  # a failing cross-check must not sink the answer
-                if method == "halfpower":
-                    raise
-                methods["halfpower"] = _not_used("halfpower", _why(exc))
+        poles = None if answer is None else answer.poles
+        if early is not None and early[0] == (lo, hi) and _same_modes(early[1], poles):
+            # the fit kept the pencil's segment and modes: half-power stands
+            methods.update(_cross_checks(method, t, y0, poles, level, noise_pre, fs, which=("logdec",)))
+            methods.update(early[2])
+        else:
+            methods.update(_cross_checks(method, t, y0, poles, level, noise_pre, fs))
         if answer is None:
             answer = methods[method]
     if not answer.poles:

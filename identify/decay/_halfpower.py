@@ -196,24 +196,26 @@ def _czt(x, m, w, a):
     The same steps as ``scipy.signal.czt`` (importing ``scipy.signal`` costs about a
     quarter of a second of the command's start-up, more than this whole check):
     ``nk = (k² + n² − (k − n)²)/2`` turns the sum into a convolution with the chirp
-    ``w^{k²/2}``, done by FFTs of a fast length.  ``tests/test_halfpower.py`` checks it
-    against scipy.
+    ``w^{k²/2}``, done by numpy's FFTs of a 5-smooth length (numpy rather than
+    scipy.fft, whose import brings scipy.special: the decay job runs this check before
+    its fit, while the command line imports lmfit in another thread, and imports nothing
+    of scipy meanwhile).  ``tests/test_halfpower.py`` checks it against scipy.
 
     References
     ----------
     Rabiner, Schafer & Rader (1969), The chirp z-transform algorithm, IEEE Trans. Audio
     Electroacoust. 17(2), 86–92.
     """
-    from scipy.fft import fft, ifft, next_fast_len
+    from .._fftlen import fast_length
 
     x = np.asarray(x)
     n = x.shape[-1]
     k = np.arange(max(m, n), dtype=np.min_scalar_type(-max(m, n) ** 2))
     wk2 = w ** (k ** 2 / 2)
     awk2 = a ** -k[:n] * wk2[:n]
-    nfft = next_fast_len(n + m - 1)
-    fwk2 = fft(1 / np.hstack((wk2[n - 1:0:-1], wk2[:m])), nfft)
-    y = ifft(fwk2 * fft(x * awk2, nfft))
+    nfft = fast_length(n + m - 1)
+    fwk2 = np.fft.fft(1 / np.hstack((wk2[n - 1:0:-1], wk2[:m])), nfft)
+    y = np.fft.ifft(fwk2 * np.fft.fft(x * awk2, nfft))
     return y[..., n - 1:n + m - 1] * wk2[:m]
 
 

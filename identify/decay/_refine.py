@@ -2,7 +2,8 @@
 
     _segment          detected (or given) ring-down, lengthened when too short
     _clipping         clipped samples at the channel's extremes (analysis starts after them)
-    _extend_segment   grow the segment while the fitted free-decay model explains the samples
+    _linear_model     a pole set's offset, drift and mode coefficients by linear least squares
+    _extend_segment   grow the segment while a free-decay model explains the samples
     _second_look      pencil and fit again from the trigger (a mode that died out early)
     _prune            drop fitted modes of negligible energy, refit the rest
     _block_copy       block-averaged copies of long records for the cross-checks
@@ -216,15 +217,37 @@ def _second_look(t_all, y_all, lo, lo_cur, hi, fitted, baseline, level, max_mode
     return None
 
 
-def _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, fitted):
-    """Grow ``[lo, hi)`` outwards (to ``lo_min`` / ``hi_max``) while the fitted free-decay
-    model explains the samples: blocks of about one period whose residual RMS stays within
+def _linear_model(t, y, poles, drift):
+    """The free-decay model of ``poles`` on the samples ``(t, y)``: offset, drift and each
+    mode's ``c, d`` by linear least squares at the fixed poles (on a strided subset of
+    about 50,000 samples: the model holds at every sample, so a subset fits it without
+    bias), in the layout of the fit's ``details`` (``t_ref_s``, ``terms``, ``offset``,
+    ``drift_per_s``).  None without an oscillatory pole."""
+    from ._nls import linear_coefficients
+
+    osc = [p for p in poles if p.imag > 0]
+    if not osc:
+        return None
+    step = _stride(t.size)
+    ts, ys = t[::step], y[::step]
+    sg = [p.decay_rate_per_s for p in osc]
+    om = [p.imag for p in osc]
+    c, d, b0, b1 = linear_coefficients(ts - ts[0], ys, sg, om, drift)
+    return {"t_ref_s": float(ts[0]), "offset": b0, "drift_per_s": b1,
+            "terms": [{"real": -a, "imag": b, "c": float(ci), "d": float(di)}
+                      for a, b, ci, di in zip(sg, om, c, d)]}
+
+
+def _extend_segment(t_all, y_all, lo, hi, lo_min, hi_max, model):
+    """Grow ``[lo, hi)`` outwards (to ``lo_min`` / ``hi_max``) while a free-decay model
+    explains the samples: blocks of about one period whose residual RMS stays within
     ``EXTEND_RMS`` noise std and no sample beyond ``EXTEND_PEAK``; in the first failing
     block the samples are kept up to the first one beyond ``EXTEND_PEAK`` noise std, or the
-    first of two in a row beyond ``EXTEND_EDGE``."""
+    first of two in a row beyond ``EXTEND_EDGE``.  ``model`` is a fit's ``details`` or
+    :func:`_linear_model`'s dict; the noise std is its residual's over ``[lo, hi)``."""
     from ._nls import model_values_on_grid
 
-    d = fitted.details
+    d = model
     terms = d.get("terms")
     if not terms or (lo <= lo_min and hi >= hi_max):
         return lo, hi
