@@ -41,11 +41,16 @@ class ModelResponse:
     holdout_start_s: float | None = None
 
     def __post_init__(self):
+        # read-only: a writeable array is copied (its owner may change it later); a
+        # read-only float array is kept as it is (a record's channel, say: no copy of
+        # millions of samples)
         for name in ("time_s", "measured", "model", "input"):
             value = getattr(self, name)
             if value is not None:
-                arr = np.array(value, dtype=float)
-                arr.setflags(write=False)
+                arr = np.asarray(value, dtype=float)
+                if arr.flags.writeable:
+                    arr = arr.copy()
+                    arr.setflags(write=False)
                 object.__setattr__(self, name, arr)
         n = {self.time_s.size, self.measured.size, self.model.size}
         if len(n) != 1:

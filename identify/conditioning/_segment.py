@@ -100,8 +100,16 @@ def _mad_std(x):
     return _MAD_TO_STD * float(np.median(np.abs(x - np.median(x))))
 
 
-def _hilbert_envelope(y, spec=None):
-    """``|y + j·H{y}|`` (the analytic signal's magnitude) and the amplitude spectrum ``|Y_k|``.
+#: records longer than this have their envelope computed at every q-th sample only
+#: (q a divisor of the transform length, at most 1/64 of the dominant period, so that a
+#: period's average still holds 64 of them): the same values at those samples, for a
+#: fraction of the work and memory (common practice, no source)
+DECIMATED_ENVELOPE_SAMPLES = 1 << 17
+
+
+def _hilbert_envelope(y, spec=None, step=1):
+    """``|y + j·H{y}|`` (the analytic signal's magnitude) at samples ``0, step, 2·step…``
+    and the amplitude spectrum ``|Y_k|``.
 
     The Hilbert transform by the FFT (as ``scipy.signal.hilbert(y, N)``): ``H{y}`` has the
     spectrum ``−j·Y_k`` on the positive frequencies and ``+j·Y_k`` on the negative ones,
@@ -111,37 +119,75 @@ def _hilbert_envelope(y, spec=None):
     first ``y.size`` samples kept; one real FFT (``spec = rfft(y, N)``, when the caller
     holds it already) serves both results.  The spectrum's bin k is the frequency
     ``k / N`` cycles per sample.
+
+    With ``step`` > 1 (a divisor of N) only every ``step``-th sample is computed, exactly:
+    the analytic signal's spectrum ``Z`` (``Y_0``, ``2·Y_k`` for ``0 < k < N/2``, ``Y_{N/2}``,
+    zero on the negative frequencies) folded to ``M = N/step`` bins,
+    ``Zf_m = Σ_j Z_{m + jM}``, has the inverse transform ``step · z_{step·m}`` (the DFT's
+    decimation-in-time identity, derived) — a transform of M points instead of N.
     """
     n = y.size
     nfft = fast_length(n)
     if spec is None:
         spec = np.fft.rfft(y, nfft)
-    turned = spec * -1j
-    turned[0] = 0.0
+    if step == 1:
+        turned = spec * -1j
+        turned[0] = 0.0
+        if nfft % 2 == 0:
+            turned[-1] = 0.0
+        quad = np.fft.irfft(turned, nfft)[:n]
+        np.multiply(quad, quad, out=quad)
+        quad += y * y
+        return np.sqrt(quad, out=quad), np.abs(spec)
+    if nfft % step:
+        raise ValueError(f"step {step} does not divide the transform length {nfft}")
+    m = nfft // step
+    folded = np.zeros(m, dtype=complex)
+    for j in range(0, spec.size, m):  # the one-sided analytic spectrum, folded
+        part = spec[j:j + m]
+        folded[:part.size] += part
+    folded *= 2.0
+    folded[0] -= spec[0]  # DC once, not twice
     if nfft % 2 == 0:
-        turned[-1] = 0.0
-    quad = np.fft.irfft(turned, nfft)[:n]
-    np.multiply(quad, quad, out=quad)
-    quad += y * y
-    return np.sqrt(quad, out=quad), np.abs(spec)
+        folded[(nfft // 2) % m] -= spec[-1]  # Nyquist once
+    z = np.fft.ifft(folded)[: -(-n // step)]
+    return np.abs(z) / step, np.abs(spec)
+
+
+def _envelope_step(nfft, period_samples):
+    """The largest divisor of ``nfft`` at most ``period_samples / 64`` (at least 1)."""
+    limit = int(period_samples // 64)
+    best = 1
+    for q in range(2, limit + 1):
+        if nfft % q == 0:
+            best = q
+    return best
 
 
 def _smoothed_envelope(y, dt, spec=None):
     """Hilbert envelope of ``y`` averaged over one period of its dominant frequency.
 
-    Returns the smoothed envelope and the averaging width in samples.
+    Returns the smoothed envelope, the averaging width in samples and the step between
+    the envelope's samples (1, or for records longer than ``DECIMATED_ENVELOPE_SAMPLES``
+    the largest divisor of the transform length up to 1/64 of the dominant period: the
+    envelope's value at every step-th sample, and the average of those in the window).
     """
-    env, spec = _hilbert_envelope(y, spec)
-    spec[0] = 0.0
-    k = int(np.argmax(spec))
+    nfft = fast_length(y.size)
+    if spec is None:
+        spec = np.fft.rfft(y, nfft)
+    mag = np.abs(spec[1:])
+    k = int(np.argmax(mag)) + 1 if mag.size and mag.max() > 0 else 0
     if k > 0:
-        period = fast_length(y.size) / k  # samples per period of the dominant line
+        period = nfft / k  # samples per period of the dominant line
         width = int(min(max(round(period), 1), max(y.size // 10, 1)))
     else:
         width = 1
-    if width > 1:  # centred moving average by cumulative sums, shrinking at the edges
-        env = _moving_average(env, width)
-    return env, width
+    step = _envelope_step(nfft, width) if y.size > DECIMATED_ENVELOPE_SAMPLES else 1
+    env, _ = _hilbert_envelope(y, spec, step)
+    span = max(1, int(round(width / step)))
+    if span > 1:  # centred moving average by cumulative sums, shrinking at the edges
+        env = _moving_average(env, span)
+    return env, width, step
 
 
 def _moving_average(env, width):
@@ -358,11 +404,12 @@ def _detect(t, x, dt, given_noise):
     y = x[first:]
     if spec is None:
         center = float(np.median(y))
-    env, width = _smoothed_envelope(y - center, dt, spec)
+    env, width, step = _smoothed_envelope(y - center, dt, spec)
+    span = max(1, int(round(width / step)))  # the width in envelope samples
     # without a trigger the record starts mid-motion, where the Hilbert envelope has an
     # edge artefact: look for the peak from one smoothing width on
-    skip = 0 if onset is not None else min(width, max(env.size - 2, 0))
-    stop = max(env.size - width, skip + 1)  # the record's end is an edge too
+    skip = 0 if onset is not None else min(span, max(env.size - 2, 0))
+    stop = max(env.size - span, skip + 1)  # the record's end is an edge too
     p = skip + int(np.argmax(env[skip:stop]))
     if env[p] <= END_FACTOR * 1.25 * s:
         raise IdentificationError(
@@ -373,8 +420,9 @@ def _detect(t, x, dt, given_noise):
     chosen["start"] = (f"ring-down start: the smoothed envelope falls below "
                        f"{100 * EXCITATION_DROP:.0f} % of its peak")
     below = np.flatnonzero(env[exc:] < END_FACTOR * s)
+    p, exc = p * step, exc * step  # envelope samples to record samples
     if below.size:
-        end = exc + int(below[0])
+        end = exc + int(below[0]) * step
         chosen["end"] = f"the smoothed envelope falls to {END_FACTOR:g} noise std"
     else:
         end = y.size - 1

@@ -329,8 +329,9 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                         methods["fit"] = answer = fitted
                         order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
                         pencil_segment = (lo, hi)
-                t, y = t_all[lo:hi], y_all[lo:hi]
-                y0 = y - pre.evaluate(t)
+                if (lo, hi) != pencil_segment:
+                    t, y = t_all[lo:hi], y_all[lo:hi]
+                    y0 = y - pre.evaluate(t)
                 if (lo, hi) != pencil_segment and method == "auto":  # the pencil as a cross-check on the same samples
                     try:
                         methods["pencil"] = run_pencil(t, y0)
@@ -366,6 +367,9 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
     from ..validation._metrics import fit_percent, rms
 
     model = _model_on_segment(answer, t, y, drift)
+    model.setflags(write=False)  # the response keeps these arrays without copies
+    t = t.view()
+    t.setflags(write=False)
     resid = y - model
     residual_rms = rms(resid)
     noise = residual_rms
