@@ -241,7 +241,7 @@ def test_segment_grows_with_the_pencil_model_before_the_one_fit(monkeypatch):
     assert seg["detected_start_s"] > seg["start_s"]
     assert seg["start_s"] == pytest.approx(400 / 250.0, abs=3 / 250.0)
     assert seg["end_s"] == pytest.approx(rec.time_s[-1])
-    assert "extended while the free-decay model explains the samples" in seg["chosen_by"]
+    assert "extended while the fitted model explains the samples" in seg["chosen_by"]
     assert len(fits) == 1
     t_fit = fits[0][0][0]
     assert (t_fit[0], t_fit[-1]) == (seg["start_s"], seg["end_s"])

@@ -341,7 +341,9 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
         if detected != (float(t[0]), float(t[-1])):
             seg_info["detected_start_s"], seg_info["detected_end_s"] = detected
             seg_info["start_s"], seg_info["end_s"] = float(t[0]), float(t[-1])
-            seg_info["chosen_by"] += ", extended while the free-decay model explains the samples"
+            # (the pencil's model is fitted too, its amplitudes by least squares; the words are
+            # part of the JSON contract)
+            seg_info["chosen_by"] += ", extended while the fitted model explains the samples"
     if intervals == "bootstrap" and "fit" in methods:  # the segment is settled: resample once
         try:
             methods["fit"] = answer = fit_damped_sinusoids(t, y, methods["fit"].poles, drift=drift,
