@@ -254,7 +254,7 @@ def _parse_file(raw: bytes, dialect: Dialect, source: str, identity, fast: dict)
 
     pandas parses from a path about twice as fast as from bytes in memory (its own
     buffered reads rather than a Python file object's).  Taken only for UTF-8 rows
-    whose lines before the data all end in ``\n`` (so that skipping ``data_line - 1``
+    whose lines before the data all end in ``\\n`` (so that skipping ``data_line - 1``
     lines lands on ``data_offset``), and only when the file's identity (device, inode,
     size, modification time) is the same after the parse as when its bytes were read
     and hashed: the numbers are then those of the bytes whose SHA-256 the record
@@ -267,9 +267,12 @@ def _parse_file(raw: bytes, dialect: Dialect, source: str, identity, fast: dict)
     if dialect.encoding != "utf-8" or fast.get("encoding") is not None or b"\r" in head.replace(b"\r\n", b"") \
             or head.count(b"\n") != dialect.data_line - 1 or raw.startswith(b"\xef\xbb\xbf"):
         return None
+    # the absolute path: pandas reads a string starting with "~" or "scheme://" as the
+    # home directory or a URL, where open() took a local relative path
+    path = os.path.abspath(source)
     try:
-        frame = pd.read_csv(source, skiprows=dialect.data_line - 1, **fast)
-        if _identity(os.stat(source)) != identity:
+        frame = pd.read_csv(path, skiprows=dialect.data_line - 1, **fast)
+        if _identity(os.stat(path)) != identity:
             return None
     except Exception:  # noqa: BLE001 - the bytes are parsed instead, with the usual errors
         return None

@@ -550,3 +550,18 @@ def test_file_changed_after_hashing_falls_back_to_the_hashed_bytes(tmp_path, mon
     assert rec.samples == 500
     assert rec.sha256 == hashlib.sha256(original).hexdigest()
     assert rec.channels[0].values[0] == pytest.approx(0.0)
+
+
+def test_file_route_reads_the_file_that_was_opened(tmp_path, monkeypatch):
+    # a relative path that starts with "~" is a local directory for open(); pandas would
+    # expand it to the home directory: the file route must parse the very file hashed
+    here, home = tmp_path / "work", tmp_path / "home"
+    (here / "~").mkdir(parents=True)
+    home.mkdir()
+    write(here / "~", "time (s),x (V)\n" + _rows(400))
+    write(home, "time (s),x (V)\n" + _rows(400, start=5.0))
+    monkeypatch.chdir(here)
+    monkeypatch.setenv("HOME", str(home))
+    rec = read_record("~/rec.csv")
+    assert rec.start_s == 0.0
+    assert rec.sha256 == hashlib.sha256((here / "~" / "rec.csv").read_bytes()).hexdigest()
