@@ -106,51 +106,76 @@ def check_time_base(time_s, *, resolution_s: float = 0.0, line_of=None, source=N
         return _check(np.asarray(time_s, dtype=float), resolution_s, line_of, source, name)
 
 
+#: the checks run over blocks of this many stamps, so that a long record needs no
+#: record-length temporaries (the same results as whole-array operations)
+BLOCK = 1 << 16
+
+
+def _blocks(n):
+    return ((a, min(n, a + BLOCK)) for a in range(0, n, BLOCK))
+
+
 def _check(t, resolution_s, line_of, source, name) -> TimeBase:
     n = t.size
     if n < 2:
         raise RecordError(f"only {n} time stamp(s); a record needs at least 2 samples", source)
-    bad = ~np.isfinite(t)
-    if bad.any():
-        i = int(np.argmax(bad))
-        raise RecordError(f"time column {name!r}: missing or non-finite stamp at line "
-                          f"{_line(line_of, i)}", source)
-    dt = np.diff(t)
-    nonpos = dt <= 0
-    if nonpos.any():
-        i = int(np.argmax(nonpos)) + 1
-        if dt[i - 1] == 0:
-            raise RecordError(f"duplicate time stamp {t[i]:.10g} s at line {_line(line_of, i)} "
-                              f"(same as line {_line(line_of, i - 1)}); stamps must increase", source)
-        raise RecordError(f"time goes backwards at line {_line(line_of, i)} ({t[i]:.10g} s after "
-                          f"{t[i - 1]:.10g} s on line {_line(line_of, i - 1)}); stamps must increase",
-                          source)
+    dt_min, dt_max = np.inf, -np.inf
+    for a, b in _blocks(n):
+        block = t[a:b]
+        bad = ~np.isfinite(block)
+        if bad.any():
+            i = a + int(np.argmax(bad))
+            raise RecordError(f"time column {name!r}: missing or non-finite stamp at line "
+                              f"{_line(line_of, i)}", source)
+    for a, b in _blocks(n - 1):  # intervals t[i+1] - t[i], i in [a, b)
+        dt = t[a + 1:b + 1] - t[a:b]
+        nonpos = dt <= 0
+        if nonpos.any():
+            i = a + int(np.argmax(nonpos)) + 1
+            if t[i] == t[i - 1]:
+                raise RecordError(f"duplicate time stamp {t[i]:.10g} s at line {_line(line_of, i)} "
+                                  f"(same as line {_line(line_of, i - 1)}); stamps must increase", source)
+            raise RecordError(f"time goes backwards at line {_line(line_of, i)} ({t[i]:.10g} s after "
+                              f"{t[i - 1]:.10g} s on line {_line(line_of, i - 1)}); stamps must increase",
+                              source)
+        dt_min, dt_max = min(dt_min, float(dt.min())), max(dt_max, float(dt.max()))
     # no interval beyond GAP_FACTOR x the smallest means none beyond GAP_FACTOR x the
     # median either: the median (a partial sort of every interval) is then not needed
-    big = None
-    if float(dt.max()) > GAP_FACTOR * float(dt.min()):
+    if dt_max > GAP_FACTOR * dt_min:
+        dt = np.diff(t)
         median = float(np.median(dt))
         big = dt > GAP_FACTOR * median
-    if big is not None and big.any():
-        i = int(np.argmax(big)) + 1
-        raise RecordError(
-            f"gap in the time base at line {_line(line_of, i)}: {dt[i - 1]:.6g} s since the "
-            f"previous stamp, {dt[i - 1] / median:.3g} times the median interval {median:.6g} s; "
-            f"gaps are never interpolated (split the record or use a gap-free part)", source)
-    rel = t - t[0]
-    k = np.arange(n, dtype=float)
+        if big.any():
+            i = int(np.argmax(big)) + 1
+            raise RecordError(
+                f"gap in the time base at line {_line(line_of, i)}: {dt[i - 1]:.6g} s since the "
+                f"previous stamp, {dt[i - 1] / median:.3g} times the median interval {median:.6g} s; "
+                f"gaps are never interpolated (split the record or use a gap-free part)", source)
+        del dt, big
+    # least-squares line through (k, t_k - t_0), then the largest deviation from it
+    t0 = float(t[0])
     k_mean = (n - 1) / 2.0
-    slope = float((np.dot(k, rel) - k_mean * rel.sum()) / (n * (n * n - 1.0) / 12.0))
-    intercept = float(rel.mean() - slope * k_mean)
-    k *= slope  # in place: the deviation from the fitted grid, without new big arrays
-    k += intercept
-    np.subtract(rel, k, out=k)
-    dev = np.abs(k, out=k)
+    sum_k_rel = sum_rel = 0.0
+    for a, b in _blocks(n):
+        rel = t[a:b] - t0
+        sum_k_rel += float(np.dot(np.arange(a, b, dtype=float), rel))
+        sum_rel += float(rel.sum())
+    slope = float((sum_k_rel - k_mean * sum_rel) / (n * (n * n - 1.0) / 12.0))
+    intercept = float(sum_rel / n - slope * k_mean)
+    worst, dev_worst = 0, -1.0
+    for a, b in _blocks(n):
+        k = np.arange(a, b, dtype=float)
+        k *= slope
+        k += intercept
+        np.subtract(t[a:b] - t0, k, out=k)
+        dev = np.abs(k, out=k)
+        i = int(np.argmax(dev))
+        if dev[i] > dev_worst:
+            worst, dev_worst = a + i, float(dev[i])
     slope = float(f"{slope:.12g}")  # drop float noise of unit conversion (1e-12 relative)
-    worst = int(np.argmax(dev))
-    jitter = float(dev[worst] / slope)
+    jitter = float(dev_worst / slope)
     eps = 64 * np.finfo(float).eps * max(abs(float(t[0])), abs(float(t[-1])))
-    if dev[worst] <= max(min(0.6 * resolution_s, 0.5 * slope), UNIFORM_PPM * slope) + eps:
+    if dev_worst <= max(min(0.6 * resolution_s, 0.5 * slope), UNIFORM_PPM * slope) + eps:
         return TimeBase(float(t[0]), slope, n, jitter, False)
     if jitter > JITTER_LIMIT:
         raise RecordError(

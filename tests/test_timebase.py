@@ -109,3 +109,34 @@ def test_resample_straight_line_exact_and_input_untouched():
     np.testing.assert_allclose(out, 3.0 * base.grid_s - 1.0, atol=1e-12)  # derived: linear
     np.testing.assert_array_equal(t, t_copy)
     np.testing.assert_array_equal(y, y_copy)
+
+
+@pytest.mark.parametrize("n", [70_000, 200_003])
+def test_block_wise_checks_equal_the_whole_array_formulas(n):
+    # derived: the checks run over blocks of 65,536 stamps; the least-squares grid, the
+    # jitter and the stamp that is worst must be those of whole-array formulas, and the
+    # first bad stamp anywhere (here in a later block) must be the one reported
+    rng = np.random.default_rng(n)
+    k = np.arange(n, dtype=float)
+    t = 2.0 + 0.001 * k + 0.001 * 0.01 * rng.uniform(-1, 1, n)  # 1 % jitter: resampled
+    worst_expected = n - 5
+    t[worst_expected] = 2.0 + 0.001 * (worst_expected + 0.015)  # the largest deviation, last block
+    slope, intercept = np.polyfit(k, t - t[0], 1)
+    dev = np.abs(t - t[0] - (slope * k + intercept))
+    base = check_time_base(t)
+    assert base.resampled
+    assert base.sample_time_s == pytest.approx(slope, rel=1e-11)
+    assert base.jitter_fraction == pytest.approx(dev.max() / slope, rel=1e-6)
+    assert int(np.argmax(dev)) == worst_expected
+    t[worst_expected] += 0.001 * 0.01  # now beyond 2 %: the message names that stamp's line
+    with pytest.raises(RecordError, match=f"line {lines(worst_expected)}"):
+        check_time_base(t, line_of=lines)
+    t[worst_expected] -= 0.001 * 0.01
+    bad = t.copy()
+    bad[n - 3] = bad[n - 4]  # a duplicate in the last block
+    with pytest.raises(RecordError, match=f"duplicate time stamp .* line {lines(n - 3)}"):
+        check_time_base(bad, line_of=lines)
+    bad = t.copy()
+    bad[66_000] = np.nan
+    with pytest.raises(RecordError, match=f"non-finite stamp at line {lines(66_000)}"):
+        check_time_base(bad, line_of=lines)
