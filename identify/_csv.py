@@ -229,7 +229,7 @@ def _parse_bulk(raw: bytes, dialect: Dialect, source: str, identity=None):
             frame = _parse_file(raw, dialect, source, identity, fast)
         if fast is not None and frame is None:
             frame = pd.read_csv(io.BytesIO(raw[dialect.data_offset:]), **fast)
-            if not all(dtype in (np.float64, np.int64) for dtype in frame.dtypes):
+            if not _numbers_only(frame):
                 frame = None  # text, booleans or mixed chunks: parse again as a whole
         if frame is None:
             frame = pd.read_csv(io.BytesIO(raw[dialect.data_offset:]), **options)
@@ -264,7 +264,7 @@ def _parse_file(raw: bytes, dialect: Dialect, source: str, identity, fast: dict)
     import pandas as pd
 
     head = raw[:dialect.data_offset]
-    if dialect.encoding != "utf-8" or fast.get("encoding") is not None or b"\r" in head.replace(b"\r\n", b"") \
+    if dialect.encoding != "utf-8" or b"\r" in head.replace(b"\r\n", b"") \
             or head.count(b"\n") != dialect.data_line - 1 or raw.startswith(b"\xef\xbb\xbf"):
         return None
     # the absolute path: pandas reads a string starting with "~" or "scheme://" as the
@@ -276,9 +276,12 @@ def _parse_file(raw: bytes, dialect: Dialect, source: str, identity, fast: dict)
             return None
     except Exception:  # noqa: BLE001 - the bytes are parsed instead, with the usual errors
         return None
-    if not all(dtype in (np.float64, np.int64) for dtype in frame.dtypes):
-        return None
-    return frame
+    return frame if _numbers_only(frame) else None
+
+
+def _numbers_only(frame) -> bool:
+    """Every column parsed as float64 or int64 (what the chunked parse may keep)."""
+    return all(dtype in (np.float64, np.int64) for dtype in frame.dtypes)
 
 
 def _fast_options(raw: bytes, dialect: Dialect, options: dict):

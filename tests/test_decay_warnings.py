@@ -167,6 +167,17 @@ def test_cross_check_table_marks_each_methods_standing():
     clean = analyse_decay(make_record([(10.0, 0.02, 1.0, 0.3)], fs=200.0, n=2000, snr_db=40, seed=1)[0])
     checks = [line for line in clean.summary().splitlines() if line.startswith("1 ")][1:]
     assert checks and all(line.endswith("intervals overlap") for line in checks)
+    # the pencil seeds the fit on the same samples: where its interval misses the answer's,
+    # the table says so and says why that raises no warning
+    import copy
+    import dataclasses
+
+    consensus = copy.deepcopy(clean.consensus)
+    consensus[0]["estimates"]["pencil"]["agree"] = False
+    apart = dataclasses.replace(clean, consensus=consensus)
+    pencil_rows = [line for line in apart.summary().splitlines() if line.startswith("1 ") and "pencil" in line]
+    assert len(pencil_rows) == 1
+    assert pencil_rows[0].endswith("intervals do not overlap (it seeds the fit: not an independent check)")
 
 
 def test_damping_interval_includes_zero():

@@ -164,13 +164,14 @@ def _envelope_step(nfft, period_samples):
     return best
 
 
-def _smoothed_envelope(y, dt, spec=None):
+def _smoothed_envelope(y, spec=None):
     """Hilbert envelope of ``y`` averaged over one period of its dominant frequency.
 
-    Returns the smoothed envelope, the averaging width in samples and the step between
-    the envelope's samples (1, or for records longer than ``DECIMATED_ENVELOPE_SAMPLES``
-    the largest divisor of the transform length up to 1/64 of the dominant period: the
-    envelope's value at every step-th sample, and the average of those in the window).
+    Returns the smoothed envelope, the averaging width in envelope samples and the step
+    between the envelope's samples in record samples (1, or for records longer than
+    ``DECIMATED_ENVELOPE_SAMPLES`` the largest divisor of the transform length up to 1/64
+    of the dominant period: the envelope's value at every step-th sample, and the
+    average of those in the window).
     """
     nfft = fast_length(y.size)
     if spec is None:
@@ -187,7 +188,7 @@ def _smoothed_envelope(y, dt, spec=None):
     span = max(1, int(round(width / step)))
     if span > 1:  # centred moving average by cumulative sums, shrinking at the edges
         env = _moving_average(env, span)
-    return env, width, step
+    return env, span, step
 
 
 def _moving_average(env, width):
@@ -404,8 +405,7 @@ def _detect(t, x, dt, given_noise):
     y = x[first:]
     if spec is None:
         center = float(np.median(y))
-    env, width, step = _smoothed_envelope(y - center, dt, spec)
-    span = max(1, int(round(width / step)))  # the width in envelope samples
+    env, span, step = _smoothed_envelope(y - center, spec)
     # without a trigger the record starts mid-motion, where the Hilbert envelope has an
     # edge artefact: look for the peak from one smoothing width on
     skip = 0 if onset is not None else min(span, max(env.size - 2, 0))

@@ -13,8 +13,6 @@ Heavy modules load on first use.
 from __future__ import annotations
 
 from .._lazy import lazy_exports
-
-
 from ._common import MethodEstimate
 
 _LAZY = {

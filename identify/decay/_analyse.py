@@ -332,12 +332,12 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                 if (lo, hi) != pencil_segment:
                     t, y = t_all[lo:hi], y_all[lo:hi]
                     y0 = y - pre.evaluate(t)
-                if (lo, hi) != pencil_segment and method == "auto":  # the pencil as a cross-check on the same samples
-                    try:
-                        methods["pencil"] = run_pencil(t, y0)
-                        order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
-                    except PoleprintError:
-                        pass
+                    if method == "auto":  # the pencil as a cross-check on the same samples
+                        try:
+                            methods["pencil"] = run_pencil(t, y0)
+                            order_scan = tuple(methods["pencil"].details.get("order_scan", ()))
+                        except PoleprintError:
+                            pass
         if detected != (float(t[0]), float(t[-1])):
             seg_info["detected_start_s"], seg_info["detected_end_s"] = detected
             seg_info["start_s"], seg_info["end_s"] = float(t[0]), float(t[-1])

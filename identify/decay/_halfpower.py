@@ -528,7 +528,6 @@ def half_power(time_s, values, *, confidence: float = 0.95, frequencies_hz=None)
     else:
         noise = noise_resid
 
-
     # pass 2: intervals
     for (ipk, fpk, omega, local, sigma, omega_d, w1, w2, res, correction) in found:
         basis = _noise_basis(omega, dt, n)

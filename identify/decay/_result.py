@@ -124,7 +124,8 @@ class DecayResult:
                 if est.get("own_warnings"):  # the method doubts its own interval here
                     remark = "doubtful here: " + ", ".join(est["own_warnings"])
                 elif est.get("agree") is False:
-                    remark = "intervals do not overlap"
+                    remark = "intervals do not overlap" + (" (it seeds the fit: not an independent check)"
+                                                           if name == "pencil" else "")
                 else:
                     remark = "intervals overlap"
                 checks.append([row["mode"], name, fmt(est["natural_frequency_hz"], 6),
