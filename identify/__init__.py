@@ -37,12 +37,14 @@ from ._errors import (EstimateWarning, HistoryError, IdentificationError, Parame
                       ParameterValueError, PoleprintError, PoleprintWarning, RecordError,
                       RecordWarning)
 from ._version import __version__
-from .poles import (Interval, Pole, PoleIntervals, continuous_to_discrete,
-                    discrete_to_continuous, hz_to_rad_per_s, rad_per_s_to_hz)
-from .records import Channel, Record
 
-#: public name -> module that defines it (imported on first access)
+#: public name -> module that defines it (imported on first access; ``import identify``
+#: imports no numpy, so the command line can set numpy's thread defaults first)
 _LAZY = {
+    "Record": "identify.records", "Channel": "identify.records",
+    "Pole": "identify.poles", "PoleIntervals": "identify.poles", "Interval": "identify.poles",
+    "continuous_to_discrete": "identify.poles", "discrete_to_continuous": "identify.poles",
+    "hz_to_rad_per_s": "identify.poles", "rad_per_s_to_hz": "identify.poles",
     "read_record": "identify._csv",
     "analyse_decay": "identify.decay", "DecayResult": "identify.decay",
     "analyse_step": "identify.step", "StepResult": "identify.step",
@@ -55,9 +57,7 @@ _LAZY = {
 }
 
 __all__ = [
-    "__version__", "Record", "Channel", "Pole", "PoleIntervals", "Interval",
-    "discrete_to_continuous", "continuous_to_discrete", "hz_to_rad_per_s", "rad_per_s_to_hz",
-    "PoleprintError", "ParameterValueError", "ParameterTypeError", "RecordError",
+    "__version__", "PoleprintError", "ParameterValueError", "ParameterTypeError", "RecordError",
     "IdentificationError", "HistoryError", "PoleprintWarning", "RecordWarning", "EstimateWarning",
     *_LAZY,
 ]

@@ -153,11 +153,22 @@ def channel_warnings(outputs=(), inputs=()) -> list:
     out = []
     for ch in outputs:
         for check in (clipping_warning, quantisation_warning):
-            text = check(ch.values, ch.name)
+            text = _checked(ch, check)
             if text:
                 out.append(text)
     for ch in inputs:
-        text = clipping_warning(ch.values, ch.name)
+        text = _checked(ch, clipping_warning)
         if text:
             out.append(text)
     return out
+
+
+def _checked(channel, check):
+    """``check(channel.values, channel.name)``, once per :class:`~identify.Channel` (its
+    values are read-only; the result is kept in the channel's cache)."""
+    cache = getattr(channel, "_quality_cache", None)
+    if cache is None:
+        return check(channel.values, channel.name)
+    if check.__name__ not in cache:
+        cache[check.__name__] = check(channel.values, channel.name)
+    return cache[check.__name__]

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
@@ -39,6 +40,13 @@ class Channel:
         arr = np.array(self.values, dtype=float)
         arr.setflags(write=False)
         object.__setattr__(self, "values", arr)
+
+    @cached_property
+    def _quality_cache(self) -> dict:
+        """Quality-check results by check name, filled by :mod:`identify._quality` on first
+        use: the values are read-only, so a record's checks at reading and a job's on the
+        same channel run once."""
+        return {}
 
     @property
     def has_missing(self) -> bool:

@@ -77,6 +77,26 @@ def test_command_line_start_imports_no_heavy_module():
     assert out.strip() == ""
 
 
+@pytest.mark.parametrize("user", [None, ("OMP_NUM_THREADS", "3"), ("OPENBLAS_NUM_THREADS", "2")])
+def test_whole_process_run_asks_blas_for_one_thread_unless_the_user_chose(user):
+    # run_command sets the thread default before numpy is imported (import identify and
+    # identify.cli import no numpy), and leaves any number the user set alone.  Our choice
+    # for small matrices on few cores (docs/decay.md), no source.
+    import os
+
+    from identify.cli import BLAS_THREAD_VARIABLES
+
+    env = {k: v for k, v in os.environ.items() if k not in BLAS_THREAD_VARIABLES}
+    if user:
+        env[user[0]] = user[1]
+    code = ("import os, sys; from identify import cli; "
+            "cli.main = lambda argv=None: (print(os.environ.get('OPENBLAS_NUM_THREADS'), "
+            "os.environ.get('MKL_NUM_THREADS'), 'numpy' in sys.modules), 0)[1]; cli.run_command()")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True).stdout
+    expected = {None: "1 1 False", "OMP_NUM_THREADS": "None None False", "OPENBLAS_NUM_THREADS": "2 None False"}
+    assert out.strip() == expected[user[0] if user else None]
+
+
 def test_closed_pipe_is_quiet():
     # `poleprint ... | head -1`: the reader closes the pipe early; no traceback
     # (common practice for command-line tools, no source)

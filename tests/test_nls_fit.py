@@ -6,7 +6,7 @@ import pytest
 from _decay_synth import crb_fn_zeta, make_decay
 from identify import IdentificationError, ParameterValueError
 from identify.decay import fit_damped_sinusoids, matrix_pencil
-from identify.decay._nls import linearised_covariance, model_jacobian, model_values
+from identify.decay._nls import linearised_covariance, model_jacobian, model_values, model_values_on_grid
 
 
 def test_exact_data_from_perturbed_seeds_converges_to_the_truth():
@@ -40,6 +40,20 @@ def test_analytic_jacobian_matches_finite_differences():
         e[k] = h
         fd = (f(theta + e) - f(theta - e)) / (2 * h)  # central difference [derived]
         assert np.max(np.abs(fd - jac[:, k])) < 1e-6 * max(1.0, np.max(np.abs(jac[:, k])))
+
+
+@pytest.mark.parametrize("n", [100, 4096, 4097, 250_001])
+@pytest.mark.parametrize("drift", [0.0, 0.003])
+def test_model_on_a_grid_equals_the_direct_evaluation(n, drift):
+    # the product form (row factor times column factor) is an identity of e^(s(a+b)) =
+    # e^(sa)e^(sb) [derived]; it must agree with exp/cos/sin at every sample, on grids
+    # that fill their last row exactly or not, below and above the direct-evaluation size
+    args = (0.37, 1e-4, n, [0.04, 3.0, 0.08], [75.4, 120.0, 194.8], [1.0, 0.5, -0.3], [0.2, 0.0, 0.5], 0.05, drift)
+    fast = model_values_on_grid(*args)
+    direct = model_values(0.37 + 1e-4 * np.arange(n), *args[3:])
+    assert fast.shape == (n,)
+    # direct evaluation itself loses about eps * omega * tau of phase (1e-12 at tau = 25 s)
+    assert np.max(np.abs(fast - direct)) < 1e-11 * np.max(np.abs(direct))
 
 
 def test_linearised_covariance_is_the_inverse_normal_matrix():

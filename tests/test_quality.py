@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from identify import Channel
-from identify._quality import (MAX_LEVELS, MIN_RUN, clipping_warning, quality_warnings,
+from identify._quality import (MAX_LEVELS, MIN_RUN, channel_warnings, clipping_warning, quality_warnings,
                                quantisation_warning)
 
 T = np.arange(2000) * 1e-3
@@ -96,6 +96,30 @@ def test_inputs_not_mutated_and_record_helper():
     out = quality_warnings([Channel("a", "V", y), Channel("b", "", np.where(T < 1, 0.0, 1.0))])
     np.testing.assert_array_equal(y, copy)
     assert [w.split(":")[0] for w in out] == ["clipping", "coarse quantisation"]
+
+
+def test_a_channel_is_checked_once(monkeypatch):
+    # the record's checks at reading and a job's checks on the same channel share one pass
+    # (the values are read-only); the answer is the same either way.  Common practice, no source.
+    import identify._quality as quality
+
+    ch = Channel("a", "V", np.clip(noisy_sine(7), -2.0, 2.0))
+    calls = []
+    real = quality.clipping_warning
+
+    def counting(values, name="signal"):
+        calls.append(name)
+        return real(values, name)
+
+    counting.__name__ = "clipping_warning"
+    monkeypatch.setattr(quality, "clipping_warning", counting)
+    first = quality_warnings([ch])
+    again = channel_warnings(outputs=(ch,))
+    as_input = channel_warnings(inputs=(ch,))
+    assert first == again and as_input == first[:1] and first[0].startswith("clipping")
+    assert calls == ["a"]
+    other = Channel("a", "V", ch.values)  # a new channel is checked anew
+    assert channel_warnings(outputs=(other,)) == first and calls == ["a", "a"]
 
 
 def test_held_staircase_is_not_clipping_but_clean_clipped_sine_is():

@@ -57,31 +57,33 @@ def model_values_on_grid(tau0, step, n, sigma, omega, c, d, offset=0.0, drift_pe
     """:func:`model_values` on the uniform grid ``τ_k = tau0 + k·step`` (k < n), fast.
 
     Each mode is ``Re((c − jd)·e^(sτ))`` with ``s = −σ + jω``.  On a grid,
-    ``e^(sτ_k) = e^(s(tau0 + jBΔ))·e^(s·iΔ)`` for ``k = jB + i``: with blocks of
-    ``B ≈ √n`` samples, ``2√n`` complex exponentials and one complex product per sample
-    replace an exponential, a cosine and a sine per sample (the same values to rounding,
-    about 1e-15 relative, derived).
+    ``e^(sτ_k) = e^(s(tau0 + jBΔ))·e^(s·iΔ)`` for ``k = jB + i``: with rows of ``B ≈ √n``
+    samples, every term (offset and drift included) is a sum of products of a row factor
+    and a column factor, so the whole model is one matrix product ``R @ C`` of
+    ``(rows × p)`` by ``(p × B)`` with ``p = 2·modes + 2``: ``2√n`` complex exponentials,
+    and no exponential, cosine or sine per sample (the same values to rounding, about
+    1e-15 relative to the largest term, derived; checked against :func:`model_values`).
     """
     n = int(n)
-    block = int(math.ceil(math.sqrt(n)))
     if n < 4096:
         return model_values(tau0 + step * np.arange(n), sigma, omega, c, d, offset, drift_per_s)
+    block = int(math.ceil(math.sqrt(n)))
     rows = -(-n // block)
-    y = np.full(n, float(offset))
-    if drift_per_s:
-        y += float(drift_per_s) * (tau0 + step * np.arange(n))
     i = np.arange(block) * step
     j = tau0 + np.arange(rows) * (block * step)
-    part, other = np.empty((rows, block)), np.empty((rows, block))
-    for sg, om, ci, di in zip(sigma, omega, c, d):
+    m = len(sigma)
+    left, right = np.empty((rows, 2 * m + 2)), np.empty((2 * m + 2, block))
+    for k, (sg, om, ci, di) in enumerate(zip(sigma, omega, c, d)):
         s = complex(-sg, om)
         head = np.exp(s * i)
         jump = complex(ci, -di) * np.exp(s * j)
-        np.multiply.outer(jump.real, head.real, out=part)
-        np.multiply.outer(jump.imag, head.imag, out=other)
-        part -= other
-        y += part.ravel()[:n]
-    return y
+        # Re(jump·head) = Re(jump)Re(head) − Im(jump)Im(head)
+        left[:, 2 * k], left[:, 2 * k + 1] = jump.real, -jump.imag
+        right[2 * k], right[2 * k + 1] = head.real, head.imag
+    # offset + drift·(j + i) = (offset + drift·j)·1 + drift·i
+    left[:, 2 * m], right[2 * m] = float(offset) + float(drift_per_s) * j, 1.0
+    left[:, 2 * m + 1], right[2 * m + 1] = float(drift_per_s), i
+    return (left @ right).ravel()[:n]
 
 
 def model_jacobian(tau, sigma, omega, c, d, drift):
@@ -310,16 +312,17 @@ def fit_damped_sinusoids(time_s, values, seeds, *, drift=False, confidence=0.95,
     n_boot = check_int("n_boot", n_boot, minimum=20)
     seeds = _seed_values(seeds)
     drift = bool(drift)
-    try:
-        import lmfit
-    except ImportError as exc:  # pragma: no cover - lmfit is a dependency
-        raise ImportError("fit_damped_sinusoids needs lmfit: pip install lmfit") from exc
-
+    # the decimated copy first: the command line may still be importing lmfit in another
+    # thread (identify/cli/_warmup.py), and this needs only numpy
     t_fit, y_fit, factor, trimmed = _decimate_for_fit(t, y, seeds)
     m = len(seeds)
     n_par = 4 * m + 1 + int(drift)
     if y_fit.size <= n_par + 2:
         raise IdentificationError(f"{y_fit.size} samples are too few to fit {m} mode(s) ({n_par} parameters)")
+    try:
+        import lmfit
+    except ImportError as exc:  # pragma: no cover - lmfit is a dependency
+        raise ImportError("fit_damped_sinusoids needs lmfit: pip install lmfit") from exc
     t_ref = float(t_fit[0])
     tau = t_fit - t_ref
     ts_fit = float(t_fit[1] - t_fit[0])

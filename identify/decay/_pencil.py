@@ -225,7 +225,9 @@ def matrix_pencil(time_s, values, *, order="auto", confidence=0.95, max_modes=10
         raise ParameterValueError("time_s must increase")
 
     factor, fastest_hz = choose_decimation(y, ts, samples_per_period=samples_per_period)
-    t_d, y_d = block_decimate(t, y, factor)
+    # only the first MAX_PENCIL_SAMPLES decimated samples are used: decimate just those
+    head = MAX_PENCIL_SAMPLES * factor
+    t_d, y_d = block_decimate(t[:head], y[:head], factor)
     ts_d = ts * factor
     n_use = min(y_d.size, MAX_PENCIL_SAMPLES)
     t_p, y_p = t_d[:n_use], y_d[:n_use]
