@@ -66,6 +66,40 @@ def test_choose_decimation_keeps_fifteen_samples_per_period():
     assert 3000.0 / q / fastest >= 15.0
 
 
+def _prominent_peak_by_full_scans(lp, height, prominence, max_checks=200):
+    # the definition written plainly: each side scanned whole for the first higher sample
+    inner = lp[1:-1]
+    cand = np.flatnonzero((inner > lp[:-2]) & (inner >= lp[2:]) & (inner > height)) + 1
+    for k in cand[::-1][:max_checks]:
+        right = [j for j in range(k + 1, lp.size) if lp[j] > lp[k]]
+        left = [j for j in range(k) if lp[j] > lp[k]]
+        right_end = right[0] if right else lp.size
+        left_start = left[-1] if left else 0
+        right_base = lp[k:right_end + 1].min() if right_end > k else lp[k]
+        if lp[k] - max(lp[left_start:k + 1].min(), right_base) >= prominence:
+            return int(k)
+    return None
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_prominent_peak_search_in_growing_windows_equals_whole_scans(seed):
+    # derived: the windowed search for the nearest higher sample must pick the same peak
+    # as scanning each side whole (spectra of decays with sidelobes, and plain noise)
+    from identify.decay._pencil import _fastest_prominent_peak
+
+    rng = np.random.default_rng(seed)
+    if seed % 2:
+        lp = rng.standard_normal(3000)
+    else:
+        t, y, _, _ = make_decay([(30.0 + 10 * seed, 0.002, 1.0, 0.0), (200.0, 0.01, 0.3, 1.0)], fs=2000.0, n=6000,
+                                snr_db=40.0, seed=seed)
+        lp = np.log10(np.abs(np.fft.rfft(y)) ** 2 + 1e-300)
+    for height in (np.median(lp), np.median(lp) + 1.0):
+        for prominence in (0.5, 1.5, 3.0):
+            assert _fastest_prominent_peak(lp, height, prominence) == \
+                _prominent_peak_by_full_scans(lp, height, prominence)
+
+
 def test_order_scan_and_details_for_a_stability_plot():
     t, y, _, _ = make_decay([(10.0, 0.02, 1.0, 0.4), (23.0, 0.01, 0.5, 0.0)], fs=200.0, n=800,
                             snr_db=40, seed=2)

@@ -78,15 +78,55 @@ def _fastest_prominent_peak(log_power, height, prominence, max_checks=200):
     lp = log_power
     inner = lp[1:-1]
     cand = np.flatnonzero((inner > lp[:-2]) & (inner >= lp[2:]) & (inner > height)) + 1
+    if cand.size == 0:
+        return None
+    # running extremes from either end: whether a side holds a higher sample at all, and
+    # its lowest point when it does not (a spectrum falling towards high frequency leaves
+    # most candidates with no higher sample on the right), without a scan per candidate
+    reverse = lp[::-1]
+    suffix_max = np.maximum.accumulate(reverse)[::-1]  # max(lp[j:])
+    suffix_min = np.minimum.accumulate(reverse)[::-1]  # min(lp[j:])
+    prefix_max = np.maximum.accumulate(lp)  # max(lp[:j + 1])
+    prefix_min = np.minimum.accumulate(lp)  # min(lp[:j + 1])
     for k in cand[::-1][:max_checks]:
-        higher_right = np.flatnonzero(lp[k + 1:] > lp[k])
-        right_end = k + 1 + (higher_right[0] if higher_right.size else lp.size - k - 1)
-        higher_left = np.flatnonzero(lp[:k] > lp[k])
-        left_start = higher_left[-1] if higher_left.size else 0
-        right_base = lp[k:right_end + 1].min() if right_end > k else lp[k]
-        left_base = lp[left_start:k + 1].min()
+        if k + 1 < lp.size and suffix_max[k + 1] > lp[k]:
+            right_base = lp[k:_first_higher(lp, k, +1) + 1].min()
+        else:
+            right_base = suffix_min[k]
+        if k > 0 and prefix_max[k - 1] > lp[k]:
+            left_base = lp[_first_higher(lp, k, -1):k + 1].min()
+        else:
+            left_base = prefix_min[k]
         if lp[k] - max(left_base, right_base) >= prominence:
             return int(k)
+    return None
+
+
+def _first_higher(x, k, direction, first_window=16):
+    """Index of the nearest sample beyond ``k`` (``direction`` +1 right, −1 left) higher
+    than ``x[k]``, or None.  Searched in windows growing fourfold from ``first_window``:
+    the same index as one scan of the whole side, but a sidelobe usually finds its higher
+    neighbour in the first window, with calls on a few samples.  (A numpy call on a few
+    hundred samples or more lets another Python thread run, and may then wait up to the
+    switch interval to resume: about 0.5 ms while the command line imports lmfit in
+    another thread, identify/cli/_warmup.py.)"""
+    level, width = x[k], first_window
+    if direction > 0:
+        lo = k + 1
+        while lo < x.size:
+            hi = min(x.size, lo + width)
+            hit = np.flatnonzero(x[lo:hi] > level)
+            if hit.size:
+                return lo + int(hit[0])
+            lo, width = hi, 4 * width
+        return None
+    hi = k
+    while hi > 0:
+        lo = max(0, hi - width)
+        hit = np.flatnonzero(x[lo:hi] > level)
+        if hit.size:
+            return lo + int(hit[-1])
+        hi, width = lo, 4 * width
     return None
 
 
