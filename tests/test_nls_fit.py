@@ -56,6 +56,24 @@ def test_model_on_a_grid_equals_the_direct_evaluation(n, drift):
     assert np.max(np.abs(fast - direct)) < 1e-11 * np.max(np.abs(direct))
 
 
+@pytest.mark.parametrize("kind", ["uniform", "jittered", "short"])
+def test_damped_parts_on_a_grid_equal_the_direct_formulas(kind):
+    # derived: e^(s(a+b)) = e^(sa)e^(sb); a uniform grid of 4096 or more points is evaluated
+    # as row-by-column products, anything else term by term: the same values either way
+    from identify.decay._nls import _damped_parts, _uniform_grid
+
+    n = 3000 if kind == "short" else 50_001
+    tau = 0.25 + 2e-3 * np.arange(n)
+    if kind == "jittered":
+        tau[n // 2] += 1e-6  # half a thousandth of a step off the grid: not a uniform grid
+    assert (_uniform_grid(tau) is not None) == (kind == "uniform")
+    sg, om = [0.05, 4.0], [75.4, 300.0]
+    for (ec, es), a, b in zip(_damped_parts(tau, sg, om), sg, om):
+        env = np.exp(-a * tau)
+        np.testing.assert_allclose(ec, env * np.cos(b * tau), rtol=0, atol=1e-12 * env.max())
+        np.testing.assert_allclose(es, env * np.sin(b * tau), rtol=0, atol=1e-12 * env.max())
+
+
 def test_linearised_covariance_is_the_inverse_normal_matrix():
     rng = np.random.default_rng(2)
     jac = rng.standard_normal((50, 3)) * np.array([1e-3, 1.0, 1e3])  # badly scaled columns
