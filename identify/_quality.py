@@ -20,6 +20,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._validate import all_finite
+
 __all__ = ["clipping_warning", "quantisation_warning", "quality_warnings", "MIN_RUN", "MAX_LEVELS"]
 
 MIN_RUN = 3
@@ -29,7 +31,7 @@ _PROBE = 20_000
 
 def _finite(values) -> np.ndarray:
     v = np.asarray(values, dtype=float).ravel()
-    return v[np.isfinite(v)]
+    return v if all_finite(v) else v[np.isfinite(v)]
 
 
 def _piecewise_constant(v: np.ndarray) -> bool:

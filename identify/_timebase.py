@@ -28,6 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ._errors import RecordError
+from ._validate import all_finite
 
 __all__ = ["GAP_FACTOR", "JITTER_LIMIT", "TimeBase", "check_time_base", "resample"]
 
@@ -123,13 +124,13 @@ def _check(t, resolution_s, line_of, source, name) -> TimeBase:
     if n < 2:
         raise RecordError(f"only {n} time stamp(s); a record needs at least 2 samples", source)
     dt_min, dt_max = np.inf, -np.inf
-    for a, b in _blocks(n):
-        block = t[a:b]
-        bad = ~np.isfinite(block)
-        if bad.any():
-            i = a + int(np.argmax(bad))
-            raise RecordError(f"time column {name!r}: missing or non-finite stamp at line "
-                              f"{_line(line_of, i)}", source)
+    if not all_finite(t):
+        for a, b in _blocks(n):
+            bad = ~np.isfinite(t[a:b])
+            if bad.any():
+                i = a + int(np.argmax(bad))
+                raise RecordError(f"time column {name!r}: missing or non-finite stamp at line "
+                                  f"{_line(line_of, i)}", source)
     for a, b in _blocks(n - 1):  # intervals t[i+1] - t[i], i in [a, b)
         dt = t[a + 1:b + 1] - t[a:b]
         nonpos = dt <= 0

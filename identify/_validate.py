@@ -12,6 +12,7 @@ import numpy as np
 from ._errors import ParameterTypeError, ParameterValueError
 
 __all__ = [
+    "all_finite",
     "check_confidence",
     "check_positive",
     "check_nonnegative",
@@ -102,6 +103,18 @@ def check_int(name: str, value, *, minimum: int | None = None, maximum: int | No
     return value
 
 
+def all_finite(values: np.ndarray) -> bool:
+    """True when every value of the float array is finite.
+
+    One sum settles the usual case without a temporary array (a NaN or infinity makes
+    the sum non-finite); only a non-finite sum, from such a value or from overflow, is
+    checked value by value.
+    """
+    with np.errstate(over="ignore", invalid="ignore"):
+        total = float(np.add.reduce(values, axis=None))
+    return math.isfinite(total) or bool(np.isfinite(values).all())
+
+
 def check_array_1d(name: str, values, *, min_length: int = 1, finite: bool = True) -> np.ndarray:
     """Return ``values`` as a 1-D float array, checking length and finiteness."""
     try:
@@ -112,7 +125,7 @@ def check_array_1d(name: str, values, *, min_length: int = 1, finite: bool = Tru
         raise ParameterValueError(f"{name} must be one-dimensional; got shape {arr.shape}")
     if arr.size < min_length:
         raise ParameterValueError(f"{name} needs at least {min_length} samples; got {arr.size}")
-    if finite and not np.all(np.isfinite(arr)):
+    if finite and not all_finite(arr):
         bad = int(np.flatnonzero(~np.isfinite(arr))[0])
         raise ParameterValueError(f"{name} holds a non-finite value at index {bad}: {arr[bad]!r}")
     return arr

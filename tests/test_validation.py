@@ -128,3 +128,19 @@ def test_bad_input_raises_project_errors():
         validate(ModelResponse(t[:2], y[:2], y[:2]))
     with pytest.raises(ParameterValueError, match="confidence"):
         validate(ModelResponse(t, y, y), confidence=95)
+
+
+def test_fit_percent_and_rms_equal_their_textbook_formulas():
+    # NRMSE fit 100(1 - ||y - yh|| / ||y - mean(y)||) and RMS sqrt(mean(v^2)) (Ljung 1999,
+    # from memory), computed without record-length temporaries: the same numbers, also
+    # for a large offset, a 2-D array and an empty one
+    from identify.validation._metrics import rms
+
+    rng = np.random.default_rng(3)
+    y = 1e4 + np.sin(np.arange(5000) / 30.0) + 0.01 * rng.standard_normal(5000)
+    yh = 1e4 + np.sin(np.arange(5000) / 30.0)
+    direct = 100 * (1 - np.sqrt(np.sum((y - yh) ** 2)) / np.sqrt(np.sum((y - y.mean()) ** 2)))
+    assert fit_percent(y, yh) == pytest.approx(direct, rel=1e-12)
+    assert rms(y - yh) == pytest.approx(np.sqrt(np.mean((y - yh) ** 2)), rel=1e-12)
+    assert rms(np.ones((3, 4)) * 2.0) == pytest.approx(2.0, rel=1e-15)
+    assert np.isnan(rms(np.array([])))

@@ -37,3 +37,21 @@ def test_array_checks():
         check_array_1d("y", [1, np.nan, 3])
     with pytest.raises(ParameterValueError, match="at least 4 samples; got 3"):
         check_array_1d("y", [1, 2, 3], min_length=4)
+
+
+def test_all_finite_agrees_with_isfinite_including_overflowing_sums():
+    # derived: the one-sum shortcut must never call a record with NaN or infinity finite,
+    # and a finite record whose sum overflows is still finite
+    import numpy as np
+
+    from identify._validate import all_finite
+
+    x = np.linspace(-1.0, 1.0, 1001)
+    assert all_finite(x) and all_finite(np.array([]))
+    for bad in (np.nan, np.inf, -np.inf):
+        y = x.copy()
+        y[500] = bad
+        assert not all_finite(y)
+    big = np.full(10, 1e308)
+    assert all_finite(big) and not all_finite(np.append(big, np.inf))
+    assert all_finite(np.array([1e308, -1e308, 1e308]))

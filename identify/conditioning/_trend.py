@@ -48,8 +48,14 @@ class OffsetTrend:
     def evaluate(self, time_s):
         """The offset-and-trend line at ``time_s`` (scalar or array)."""
         t = np.asarray(time_s, dtype=float)
-        value = self.offset + self.slope_per_s * (t - self.t_ref_s)
-        return float(value) if value.ndim == 0 else value
+        if t.ndim == 0:
+            return float(self.offset + self.slope_per_s * (t - self.t_ref_s))
+        if self.slope_per_s == 0:  # offset only: offset + 0·(t − t_ref) is the offset exactly
+            return np.full(t.shape, float(self.offset))
+        value = t - self.t_ref_s  # in place from here: one temporary on long records
+        value *= self.slope_per_s
+        value += self.offset
+        return value
 
     def to_dict(self) -> dict:
         from .._jsonable import jsonable

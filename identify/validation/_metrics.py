@@ -15,10 +15,17 @@ def fit_percent(measured, model) -> float:
     """
     y = np.asarray(measured, dtype=float)
     yh = np.asarray(model, dtype=float)
-    denom = np.linalg.norm(y - y.mean())
+    work = y - y.mean()  # one record-length temporary, used twice (long records)
+    denom = _norm(work)
     if denom == 0:
         return float("nan")
-    return float(100.0 * (1.0 - np.linalg.norm(y - yh) / denom))
+    np.subtract(y, yh, out=work)
+    return float(100.0 * (1.0 - _norm(work) / denom))
+
+
+def _norm(v) -> float:
+    """Euclidean norm of a 1-D array without a temporary (``√(v·v)``)."""
+    return float(np.sqrt(np.dot(v, v))) if v.ndim == 1 else float(np.linalg.norm(v))
 
 
 def r_squared(measured, model) -> float:
@@ -34,4 +41,6 @@ def r_squared(measured, model) -> float:
 def rms(values) -> float:
     """Root mean square."""
     v = np.asarray(values, dtype=float)
-    return float(np.sqrt(np.mean(v * v))) if v.size else float("nan")
+    if not v.size:
+        return float("nan")
+    return _norm(v) / float(np.sqrt(v.size)) if v.ndim == 1 else float(np.sqrt(np.mean(v * v)))
