@@ -41,6 +41,20 @@ class Channel:
         arr.setflags(write=False)
         object.__setattr__(self, "values", arr)
 
+    @classmethod
+    def _adopt(cls, name: str, unit: str, values: np.ndarray) -> "Channel":
+        """A channel over the float array ``values`` itself, without the copy the
+        constructor makes: only for arrays nothing else holds or writes (the CSV
+        reader's own parse); the array is made read-only here."""
+        arr = np.asarray(values, dtype=float)
+        if arr.ndim != 1:
+            return cls(name, unit, arr)
+        arr.setflags(write=False)
+        obj = cls.__new__(cls)
+        for key, value in (("name", name), ("unit", unit), ("values", arr)):
+            object.__setattr__(obj, key, value)
+        return obj
+
     @cached_property
     def _quality_cache(self) -> dict:
         """Quality-check results by check name, filled by :mod:`identify._quality` on first
@@ -148,7 +162,10 @@ class Record:
     @property
     def time_s(self) -> np.ndarray:
         """The uniform time base in seconds."""
-        return self.start_s + self.sample_time_s * np.arange(self.samples)
+        t = np.arange(self.samples, dtype=float)  # in place: one array, the same numbers
+        t *= self.sample_time_s
+        t += self.start_s
+        return t
 
     @property
     def sample_rate_hz(self) -> float:

@@ -273,14 +273,14 @@ def _analyse(record, column, method, modes, level, intervals, start_s, end_s, na
                 if (new_lo, new_hi) == (lo, hi):
                     break
                 t_new, y_new = t_all[new_lo:new_hi], y_all[new_lo:new_hi]
+                y0_new = y_new - pre.evaluate(t_new)
                 try:
-                    grown = run_pencil(t_new, y_new - pre.evaluate(t_new))
+                    grown = run_pencil(t_new, y0_new)
                 except PoleprintError:
                     break
                 if not grown.poles:
                     break
-                lo, hi, t, y, pencil = new_lo, new_hi, t_new, y_new, grown
-                y0 = y - pre.evaluate(t)
+                lo, hi, t, y, y0, pencil = new_lo, new_hi, t_new, y_new, y0_new, grown
         methods["pencil"] = pencil
         pencil_segment = (lo, hi)
         order_scan = tuple(pencil.details.get("order_scan", ()))
