@@ -149,8 +149,7 @@ def read_record(path, *, sample_rate_hz=None, time_column=None, nan="raise") -> 
         else:
             raise RecordError(f"no time column and no sample rate: {_NO_RATE_HINT}", source)
 
-    # the parsed columns are the reader's own: the channels keep them without a copy
-    channels = tuple(Channel._adopt(names[j], units[j], values[j]) for j in channel_js)
+    channels = tuple(Channel(names[j], units[j], values[j]) for j in channel_js)
     return Record(start_s, sample_time_s, channels, source=source, sha256=digest,
                   notes=tuple(notes), warnings=tuple(quality_warnings(channels)),
                   metadata=dict(dialect.metadata))

@@ -41,20 +41,6 @@ class Channel:
         arr.setflags(write=False)
         object.__setattr__(self, "values", arr)
 
-    @classmethod
-    def _adopt(cls, name: str, unit: str, values: np.ndarray) -> "Channel":
-        """A channel over the float array ``values`` itself, without the copy the
-        constructor makes: only for arrays nothing else holds or writes (the CSV
-        reader's own parse); the array is made read-only here."""
-        arr = np.asarray(values, dtype=float)
-        if arr.ndim != 1:
-            return cls(name, unit, arr)
-        arr.setflags(write=False)
-        obj = cls.__new__(cls)
-        for key, value in (("name", name), ("unit", unit), ("values", arr)):
-            object.__setattr__(obj, key, value)
-        return obj
-
     @cached_property
     def _quality_cache(self) -> dict:
         """Quality-check results by check name, filled by :mod:`identify._quality` on first
