@@ -110,8 +110,8 @@ def check_time_base(time_s, *, resolution_s: float = 0.0, line_of=None, source=N
 #: the checks run over blocks of this many stamps, so that a long record needs no
 #: record-length temporaries (the same results as whole-array operations).  Not smaller:
 #: each numpy call may wait for the interpreter lock while the command line imports lmfit
-#: in another thread, so a 2,000,000-stamp check in blocks of 65,536 took 0.33 s there
-#: against 0.08 s in blocks of 1,048,576 (docs/decay.md)
+#: in another thread: a 2,000,000-stamp check beside a busy Python thread took 0.33 s in
+#: blocks of 65,536 against 0.08 s in blocks of 1,048,576 (docs/decay.md)
 BLOCK = 1 << 20
 
 
