@@ -14,7 +14,8 @@ import sys
 from .._version import __version__
 from ._common import EXIT_OK, EXIT_PARTIAL, EXIT_USAGE, CliUsageError, fail_line
 
-__all__ = ["main", "run_command", "build_parser", "default_blas_threads", "EXIT_OK", "EXIT_USAGE", "EXIT_PARTIAL"]
+__all__ = ["main", "run_command", "build_parser", "default_blas_threads", "EXIT_OK", "EXIT_USAGE",
+           "EXIT_PARTIAL"]
 
 #: (subcommand, module under identify.cli, one-line help); each module defines
 #: ``register(subparsers, name, help)`` and sets ``func`` on its parser.

@@ -116,7 +116,7 @@ def model_values_on_grid(tau0, step, n, sigma, omega, c, d, offset=0.0, drift_pe
     1e-15 relative to the largest term, derived; checked against :func:`model_values`).
     """
     n = int(n)
-    if n < 4096:
+    if n < GRID_MIN_SAMPLES:
         return model_values(tau0 + step * np.arange(n), sigma, omega, c, d, offset, drift_per_s)
     block = int(math.ceil(math.sqrt(n)))
     rows = -(-n // block)
