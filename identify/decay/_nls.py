@@ -51,8 +51,13 @@ def _uniform_grid(tau):
     ideal -= tau
     if not float(np.max(np.abs(ideal))) <= 1e-9 * step:
         return None
+    return (tau0, step) + _grid_shape(n)
+
+
+def _grid_shape(n):
+    """``(B, rows)``: rows of ``B ≈ √n`` samples holding a grid of ``n`` points."""
     block = int(math.ceil(math.sqrt(n)))
-    return tau0, step, block, -(-n // block)
+    return block, -(-n // block)
 
 
 def _damped_parts(tau, sigma, omega, grid=False):
@@ -118,8 +123,7 @@ def model_values_on_grid(tau0, step, n, sigma, omega, c, d, offset=0.0, drift_pe
     n = int(n)
     if n < GRID_MIN_SAMPLES:
         return model_values(tau0 + step * np.arange(n), sigma, omega, c, d, offset, drift_per_s)
-    block = int(math.ceil(math.sqrt(n)))
-    rows = -(-n // block)
+    block, rows = _grid_shape(n)
     i = np.arange(block) * step
     j = tau0 + np.arange(rows) * (block * step)
     m = len(sigma)
